@@ -1,0 +1,126 @@
+//! The command line: arguments to a run configuration, printing, exit codes.
+//!
+//! Thin on purpose: it validates what the user typed, dispatches to the
+//! pipeline, prints problems and the summary, and maps the outcome to an exit
+//! status (0 all requests ok, 1 some request failed, 2 the input could not be
+//! used).
+
+use crate::fits::Registry;
+use crate::layout::Status;
+use crate::pipeline::{self, RunConfig, Summary};
+use clap::{Parser, Subcommand};
+use std::path::PathBuf;
+
+const EXIT_HELP: &str = "Exit status: 0 every request fitted; 1 some request failed (the output is still written, each failure shown at its cell); 2 the input could not be used (nothing written).
+
+Reproducible output: set SOURCE_DATE_EPOCH (seconds since 1970, UTC) to pin the time recorded in the output; the same input then gives the same bytes.";
+
+/// Regression fits requested from workbook cells.
+#[derive(Debug, Parser)]
+#[command(name = "plumb", version, about, after_help = EXIT_HELP)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Fit every request of a workbook and write a new workbook with the results.
+    #[command(after_help = EXIT_HELP)]
+    Run {
+        /// The workbook (xlsx, xlsm, xlsb, xls or ods). It is never changed.
+        input: PathBuf,
+        /// Where to write (an .xlsx file); default NAME.fitted.xlsx beside the input.
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+    },
+    /// Read, parse and resolve every request and print its status; writes nothing.
+    #[command(after_help = EXIT_HELP)]
+    Check {
+        /// The workbook to check.
+        input: PathBuf,
+    },
+    /// List the functions of the fit language with their arguments and options.
+    Functions,
+}
+
+fn pinned_time() -> Result<Option<i64>, String> {
+    match std::env::var("SOURCE_DATE_EPOCH") {
+        Ok(v) => v.trim().parse::<i64>().map(Some).map_err(|_| format!("SOURCE_DATE_EPOCH={v} is not a whole number of seconds")),
+        Err(_) => Ok(None),
+    }
+}
+
+fn print_summary(s: &Summary) {
+    for p in &s.problems {
+        eprint!("{p}");
+    }
+    for r in &s.reports {
+        let status = r.status.as_str();
+        let detail = match (&r.status, &r.outcome) {
+            (Status::Error, _) | (_, None) => r.messages.first().cloned().unwrap_or_default(),
+            (_, Some(o)) => {
+                let r2 = o.statistic("r_squared").map(|v| format!(", R² = {v:.4}")).unwrap_or_default();
+                format!("{} fit, n = {}{r2}", r.function, r.rows_used)
+            }
+        };
+        println!("{:<8} {:<14} {:<16} {}", status, r.cell.to_string(), r.name, detail);
+    }
+    let failed = s.reports.iter().filter(|r| r.status == Status::Error).count();
+    println!("{} request(s): {} fitted, {} failed", s.reports.len(), s.reports.len() - failed, failed);
+}
+
+/// Runs the command line; returns the exit status.
+pub fn main_with(cli: Cli) -> i32 {
+    let registry = Registry::builtin();
+    match cli.command {
+        Command::Functions => {
+            for (plugin, f) in registry.functions() {
+                println!("{}", f.signature());
+                println!("    {} (plugin: {plugin})", f.help);
+                for p in &f.positional {
+                    println!("    {:<12} {}", p.name, p.help);
+                }
+                for o in &f.options {
+                    let d = o.default.as_ref().map(|d| format!(" (default {d})")).unwrap_or_default();
+                    println!("    {:<12} {}{d}", format!("{}=", o.name), o.help);
+                }
+                println!();
+            }
+            0
+        }
+        Command::Check { input } => match pipeline::evaluate(&input, &registry) {
+            Ok((_, s)) => {
+                print_summary(&s);
+                i32::from(s.any_failed())
+            }
+            Err(e) => {
+                eprintln!("error: {e}");
+                2
+            }
+        },
+        Command::Run { input, output } => {
+            let created_unix = match pinned_time() {
+                Ok(t) => t,
+                Err(e) => {
+                    eprintln!("error: {e}");
+                    return 2;
+                }
+            };
+            match pipeline::run(&RunConfig { input, output, created_unix }, &registry) {
+                Ok(s) => {
+                    print_summary(&s);
+                    if let Some(o) = &s.output {
+                        println!("wrote {}", o.display());
+                    }
+                    i32::from(s.any_failed())
+                }
+                Err(e) => {
+                    eprintln!("error: {e}");
+                    eprintln!("nothing was written");
+                    2
+                }
+            }
+        }
+    }
+}

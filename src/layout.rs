@@ -1,0 +1,593 @@
+//! Arranging outcomes into an abstract workbook.
+//!
+//! Layout decides what goes where — the result sheets, the one-line outcome
+//! at each request cell, the residual columns beside each fit's data — in a
+//! plain model of sheets, cells, styles and links. It knows nothing of any
+//! writer library, so it is tested without files; `write` renders it.
+//!
+//! Source sheets are not copied into the model: they get an [`Overlay`] of
+//! replaced cells and added column blocks, which the writer merges with the
+//! source grid row by row.
+
+use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Grid, Value, Workbook};
+use crate::protocol::FitOutcome;
+use std::collections::{BTreeMap, HashSet};
+
+/// How a cell looks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Style {
+    /// No formatting.
+    Plain,
+    /// A table header: bold, shaded.
+    Header,
+    /// A sheet or block title: bold, larger.
+    Title,
+    /// A number shown to six significant digits (the cell keeps every digit).
+    Number,
+    /// A whole number.
+    Integer,
+    /// A p-value: four decimals, or scientific below 0.0001.
+    PValue,
+    /// Text that wraps within the column.
+    Wrap,
+    /// A request outcome that went well: bold.
+    Good,
+    /// A warning: dark orange text.
+    Warning,
+    /// An error: dark red text.
+    Error,
+    /// A link: underlined blue.
+    Link,
+    /// A date.
+    Date,
+    /// A date and time.
+    DateTime,
+    /// A time of day.
+    Time,
+}
+
+/// What a cell holds.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Content {
+    /// Nothing (a styled blank).
+    Blank,
+    /// A number.
+    Number(f64),
+    /// Text.
+    Text(String),
+    /// A boolean.
+    Bool(bool),
+    /// A date-time serial of the 1900 system.
+    DateTime(f64, DateKind),
+    /// An error value.
+    Error(ErrorValue),
+    /// A formula (without `=`) and its last computed value.
+    Formula(String, Cached),
+}
+
+/// The last computed value of a formula.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cached {
+    /// No value.
+    Empty,
+    /// A number.
+    Number(f64),
+    /// Text.
+    Text(String),
+    /// A boolean.
+    Bool(bool),
+    /// An error value.
+    Error(ErrorValue),
+}
+
+/// One cell of the model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutCell {
+    /// Value.
+    pub content: Content,
+    /// Look.
+    pub style: Style,
+    /// An internal link target such as `'Coefficients'!A5`.
+    pub link: Option<String>,
+    /// A note shown when the reader hovers over the cell.
+    pub note: Option<String>,
+}
+
+impl OutCell {
+    /// A cell with content and style.
+    pub fn new(content: Content, style: Style) -> Self {
+        OutCell { content, style, link: None, note: None }
+    }
+    /// Text in a style.
+    pub fn text(t: impl Into<String>, style: Style) -> Self {
+        OutCell::new(Content::Text(t.into()), style)
+    }
+    /// A number in a style; NaN becomes a blank.
+    pub fn number(x: f64, style: Style) -> Self {
+        if x.is_finite() {
+            OutCell::new(Content::Number(x), style)
+        } else {
+            OutCell::new(Content::Blank, style)
+        }
+    }
+    /// An optional number.
+    pub fn maybe(x: Option<f64>, style: Style) -> Self {
+        OutCell::number(x.unwrap_or(f64::NAN), style)
+    }
+    /// Adds a link.
+    pub fn link(mut self, target: impl Into<String>) -> Self {
+        self.link = Some(target.into());
+        self
+    }
+}
+
+/// A result sheet.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Sheet {
+    /// Name.
+    pub name: String,
+    /// Cells by (row, column).
+    pub cells: BTreeMap<(u32, u32), OutCell>,
+    /// Column widths in characters.
+    pub widths: BTreeMap<u32, f64>,
+    /// Rows and columns frozen above and left of this cell.
+    pub freeze: Option<(u32, u32)>,
+    /// A filter over a table.
+    pub filter: Option<CellRange>,
+}
+
+impl Sheet {
+    fn new(name: &str) -> Self {
+        Sheet { name: name.to_string(), ..Default::default() }
+    }
+    fn put(&mut self, row: u32, col: u32, cell: OutCell) {
+        self.cells.insert((row, col), cell);
+    }
+    /// Writes a header row and freezes it, with a filter over the table
+    /// that will follow.
+    fn header(&mut self, row: u32, labels: &[(&str, f64)]) {
+        for (c, (label, width)) in labels.iter().enumerate() {
+            self.put(row, c as u32, OutCell::text(*label, Style::Header));
+            self.widths.insert(c as u32, *width);
+        }
+        self.freeze = Some((row + 1, 0));
+    }
+    fn close_table(&mut self, header_row: u32, cols: u32) {
+        let last = self.cells.keys().map(|k| k.0).max().unwrap_or(header_row);
+        self.filter = Some(CellRange { first_row: header_row, first_col: 0, last_row: last.max(header_row), last_col: cols - 1 });
+    }
+}
+
+/// A column of per-row results added to a source sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ColumnBlock {
+    /// Column on the source sheet.
+    pub col: u32,
+    /// Header cell row and text.
+    pub header: Option<(u32, String)>,
+    /// Absolute sheet rows, ascending, one per value.
+    pub rows: Vec<u32>,
+    /// Values; NaN shows as a blank.
+    pub values: Vec<f64>,
+}
+
+/// Changes to one source sheet.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Overlay {
+    /// Cells that replace source cells (request outcomes).
+    pub cells: BTreeMap<(u32, u32), OutCell>,
+    /// Added result columns.
+    pub blocks: Vec<ColumnBlock>,
+    /// Widths for added columns.
+    pub widths: BTreeMap<u32, f64>,
+}
+
+/// The whole output: overlays for the source sheets, in source order, then
+/// the result sheets.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Book {
+    /// One overlay per source sheet.
+    pub overlays: Vec<Overlay>,
+    /// The result sheets in order.
+    pub sheets: Vec<Sheet>,
+    /// Whether source formulas are kept (false when the source's formula
+    /// syntax is not that of the output format).
+    pub keep_formulas: bool,
+}
+
+/// Where a fit's per-row results belong.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowsPlace {
+    /// Sheet of the data.
+    pub sheet: String,
+    /// Header row of the table, when it has one.
+    pub header_row: Option<u32>,
+    /// The table's last column; results go to its right.
+    pub last_col: u32,
+    /// First and last data row of the table.
+    pub first_row: u32,
+    /// Last data row.
+    pub last_row: u32,
+    /// The sheet row of each row sent to the fit.
+    pub rows: Vec<u32>,
+}
+
+/// How a request ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// Fitted.
+    Ok,
+    /// Fitted, with warnings.
+    Warning,
+    /// Not fitted.
+    Error,
+}
+
+impl Status {
+    /// A word for the Fits sheet.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Status::Ok => "ok",
+            Status::Warning => "warning",
+            Status::Error => "error",
+        }
+    }
+}
+
+/// Everything layout needs to know of one request.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Report {
+    /// The fit's name (`name=` or the cell address).
+    pub name: String,
+    /// Function, lowercase.
+    pub function: String,
+    /// Request cell.
+    pub cell: CellAddress,
+    /// Request text.
+    pub text: String,
+    /// Response as typed (empty when the request did not resolve).
+    pub response: String,
+    /// Terms as typed.
+    pub terms: Vec<String>,
+    /// Confidence level.
+    pub level: f64,
+    /// Rows used.
+    pub rows_used: usize,
+    /// Rows left out.
+    pub rows_left_out: usize,
+    /// Outcome.
+    pub status: Status,
+    /// The error message (one line) or the warnings.
+    pub messages: Vec<String>,
+    /// The fit's outcome, when it ran.
+    pub outcome: Option<FitOutcome>,
+    /// Where per-row results go.
+    pub place: Option<RowsPlace>,
+}
+
+/// Facts about the run for the About sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RunInfo {
+    /// Tool version.
+    pub version: String,
+    /// Input file name.
+    pub input_name: String,
+    /// SHA-256 of the input, hex.
+    pub input_sha256: String,
+    /// Time of the run, as text (UTC, ISO 8601).
+    pub time: String,
+}
+
+/// Names of the result sheets.
+pub const RESULT_SHEETS: [&str; 6] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About"];
+
+/// A result sheet name that does not clash with a source sheet: the plain
+/// name, else the name with ` (plumb)`, else with a number.
+fn unique_name(base: &str, taken: &HashSet<String>) -> String {
+    let free = |n: &str| !taken.contains(&n.to_lowercase());
+    if free(base) {
+        return base.to_string();
+    }
+    let alt = format!("{base} (plumb)");
+    if free(&alt) {
+        return alt;
+    }
+    (2..).map(|i| format!("{base} {i}")).find(|n| free(n)).unwrap_or_else(|| base.to_string())
+}
+
+fn link_to(sheet: &str, row: u32, col: u32) -> String {
+    format!("{}!{}", quote_sheet_name(sheet), CellAddress::new(sheet, row, col).local())
+}
+
+/// The one line shown in place of a request cell.
+pub fn outcome_line(r: &Report) -> String {
+    match (&r.status, &r.outcome) {
+        (Status::Error, _) | (_, None) => {
+            format!("{} — error: {}", r.text.trim(), r.messages.first().map(String::as_str).unwrap_or("the request failed"))
+        }
+        (_, Some(o)) => {
+            let r2 = o.statistic("r_squared").map(|v| format!(", R² = {v:.4}")).unwrap_or_default();
+            let left = if r.rows_left_out > 0 { format!(" ({} left out)", r.rows_left_out) } else { String::new() };
+            let warn = match r.status {
+                Status::Warning => format!("; {} warning{}, see Fits", r.messages.len(), if r.messages.len() == 1 { "" } else { "s" }),
+                _ => String::new(),
+            };
+            format!("{}: {} fit of {}, n = {}{left}{r2}{warn} → Coefficients", r.name, r.function, r.response, r.rows_used)
+        }
+    }
+}
+
+/// Lays out the whole output.
+pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
+    let taken: HashSet<String> = book.sheets.iter().map(|g| g.name.to_lowercase()).collect();
+    let names: Vec<String> = RESULT_SHEETS.iter().map(|n| unique_name(n, &taken)).collect();
+    let (fits_n, coef_n, int_n, diag_n, guide_n, about_n) = (&names[0], &names[1], &names[2], &names[3], &names[4], &names[5]);
+
+    // Coefficients first: other sheets link to its rows.
+    let mut coef = Sheet::new(coef_n);
+    coef.header(0, &[("Fit", 14.0), ("Term", 22.0), ("Estimate", 14.0), ("Standard error", 15.0), ("t statistic", 12.0), ("p-value", 11.0)]);
+    let mut ints = Sheet::new(int_n);
+    ints.header(0, &[("Fit", 14.0), ("Term", 22.0), ("Level", 8.0), ("Estimate", 14.0), ("Lower bound", 14.0), ("Upper bound", 14.0)]);
+    let mut first_coef_row: Vec<Option<u32>> = Vec::new();
+    let (mut row, mut irow) = (1u32, 1u32);
+    for r in reports {
+        let Some(o) = &r.outcome else {
+            first_coef_row.push(None);
+            continue;
+        };
+        first_coef_row.push(Some(row));
+        for c in &o.coefficients {
+            coef.put(row, 0, OutCell::text(&r.name, Style::Plain));
+            coef.put(row, 1, OutCell::text(&c.term, Style::Plain));
+            coef.put(row, 2, OutCell::maybe(c.estimate, Style::Number));
+            coef.put(row, 3, OutCell::maybe(c.std_error, Style::Number));
+            coef.put(row, 4, OutCell::maybe(c.statistic, Style::Number));
+            coef.put(row, 5, OutCell::maybe(c.p_value, Style::PValue));
+            if c.estimate.is_none() {
+                coef.put(row, 6, OutCell::text("not estimable (collinear)", Style::Warning));
+            }
+            row += 1;
+            ints.put(irow, 0, OutCell::text(&r.name, Style::Plain));
+            ints.put(irow, 1, OutCell::text(&c.term, Style::Plain));
+            ints.put(irow, 2, OutCell::number(r.level, Style::Number));
+            ints.put(irow, 3, OutCell::maybe(c.estimate, Style::Number));
+            ints.put(irow, 4, OutCell::maybe(c.lower, Style::Number));
+            ints.put(irow, 5, OutCell::maybe(c.upper, Style::Number));
+            irow += 1;
+        }
+    }
+    coef.close_table(0, 6);
+    ints.close_table(0, 6);
+
+    // Fits.
+    let mut fits = Sheet::new(fits_n);
+    fits.header(
+        0,
+        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 80.0)],
+    );
+    for (i, r) in reports.iter().enumerate() {
+        let row = i as u32 + 1;
+        let mut name = OutCell::text(&r.name, Style::Plain);
+        if let Some(cr) = first_coef_row[i] {
+            name = OutCell::text(&r.name, Style::Link).link(link_to(coef_n, cr, 0));
+        }
+        fits.put(row, 0, name);
+        fits.put(row, 1, OutCell::text(&r.function, Style::Plain));
+        fits.put(row, 2, OutCell::text(&r.response, Style::Plain));
+        fits.put(row, 3, OutCell::text(r.terms.join(" + "), Style::Plain));
+        fits.put(row, 4, OutCell::text(r.cell.to_string(), Style::Link).link(link_to(&r.cell.sheet, r.cell.row, r.cell.col)));
+        if r.outcome.is_some() {
+            fits.put(row, 5, OutCell::number(r.rows_used as f64, Style::Integer));
+            fits.put(row, 6, OutCell::number(r.rows_left_out as f64, Style::Integer));
+        }
+        let st = match r.status {
+            Status::Ok => Style::Good,
+            Status::Warning => Style::Warning,
+            Status::Error => Style::Error,
+        };
+        fits.put(row, 7, OutCell::text(r.status.as_str(), st));
+        fits.put(row, 8, OutCell::text(r.messages.join(" | "), Style::Plain));
+    }
+    fits.close_table(0, 9);
+
+    // Diagnostics: a block per fit.
+    let mut diag = Sheet::new(diag_n);
+    diag.widths.insert(0, 40.0);
+    diag.widths.insert(1, 18.0);
+    let mut drow = 0u32;
+    for r in reports {
+        let Some(o) = &r.outcome else { continue };
+        diag.put(drow, 0, OutCell::text(format!("{} — {}", r.name, r.text.trim()), Style::Title));
+        drow += 1;
+        let mut group = "";
+        for s in &o.statistics {
+            if s.group != group {
+                group = &s.group;
+                diag.put(drow, 0, OutCell::text(group, Style::Header));
+                diag.put(drow, 1, OutCell::text("Value", Style::Header));
+                drow += 1;
+            }
+            diag.put(drow, 0, OutCell::text(&s.label, Style::Plain));
+            let style = if s.key.contains("p_value") {
+                Style::PValue
+            } else if s.key.starts_with("df") || s.key == "n" || s.key == "parameters" {
+                Style::Integer
+            } else {
+                Style::Number
+            };
+            diag.put(drow, 1, OutCell::number(s.value, style));
+            drow += 1;
+        }
+        if !o.warnings.is_empty() || !o.notes.is_empty() || r.rows_left_out > 0 {
+            diag.put(drow, 0, OutCell::text("Warnings and notes", Style::Header));
+            drow += 1;
+            for m in r.messages.iter().chain(&o.notes) {
+                diag.put(drow, 0, OutCell::text(m, Style::Warning));
+                drow += 1;
+            }
+        }
+        drow += 1;
+    }
+
+    // Source overlays: outcomes at request cells, residual columns.
+    let mut overlays: Vec<Overlay> = book.sheets.iter().map(|_| Overlay::default()).collect();
+    let request_cells: HashSet<(String, u32, u32)> = reports.iter().map(|r| (r.cell.sheet.clone(), r.cell.row, r.cell.col)).collect();
+    let mut claimed: Vec<Vec<(u32, u32, u32)>> = vec![Vec::new(); book.sheets.len()]; // (col, first_row, last_row)
+    for (i, r) in reports.iter().enumerate() {
+        let Some(si) = book.sheets.iter().position(|g| g.name == r.cell.sheet) else { continue };
+        let target = match first_coef_row[i] {
+            Some(cr) => link_to(coef_n, cr, 0),
+            None => link_to(fits_n, i as u32 + 1, 0),
+        };
+        let style = match r.status {
+            Status::Ok => Style::Good,
+            Status::Warning => Style::Warning,
+            Status::Error => Style::Error,
+        };
+        let mut cell = OutCell::text(outcome_line(r), style).link(target);
+        cell.note = Some(format!("plumb request: {}", r.text.trim()));
+        overlays[si].cells.insert((r.cell.row, r.cell.col), cell);
+    }
+    for r in reports {
+        let (Some(o), Some(place)) = (&r.outcome, &r.place) else { continue };
+        let Some(si) = book.sheets.iter().position(|g| g.name == place.sheet) else { continue };
+        let grid = &book.sheets[si];
+        let top = place.header_row.unwrap_or(place.first_row);
+        let width = o.rows.len() as u32;
+        if width == 0 {
+            continue;
+        }
+        let col = free_columns(grid, &request_cells, &claimed[si], place.last_col + 1, width, top, place.last_row);
+        claimed[si].push((col, top, place.last_row));
+        for (k, rc) in o.rows.iter().enumerate() {
+            let c = col + k as u32;
+            claimed[si].push((c, top, place.last_row));
+            overlays[si].widths.insert(c, (rc.label.len() + r.name.len() + 4).clamp(10, 28) as f64);
+            overlays[si].blocks.push(ColumnBlock {
+                col: c,
+                header: place.header_row.map(|h| (h, format!("{} ({})", rc.label, r.name))),
+                rows: place.rows.clone(),
+                values: rc.values.clone(),
+            });
+        }
+    }
+
+    let guide = guide_sheet(guide_n);
+    let mut about = Sheet::new(about_n);
+    about.widths.insert(0, 18.0);
+    about.widths.insert(1, 70.0);
+    about.widths.insert(2, 10.0);
+    about.put(0, 0, OutCell::text("About this workbook", Style::Title));
+    let facts = [
+        ("Made by", format!("plumb {}", info.version)),
+        ("Input file", info.input_name.clone()),
+        ("Input SHA-256", info.input_sha256.clone()),
+        ("Time of the run (UTC)", info.time.clone()),
+        ("Regenerate with", format!("plumb run \"{}\"", info.input_name)),
+    ];
+    for (i, (k, v)) in facts.iter().enumerate() {
+        about.put(i as u32 + 1, 0, OutCell::text(*k, Style::Header));
+        about.put(i as u32 + 1, 1, OutCell::text(v, Style::Plain));
+    }
+    let base = facts.len() as u32 + 2;
+    about.put(base, 0, OutCell::text("Request cell", Style::Header));
+    about.put(base, 1, OutCell::text("Request text", Style::Header));
+    about.put(base, 2, OutCell::text("Status", Style::Header));
+    for (i, r) in reports.iter().enumerate() {
+        let row = base + 1 + i as u32;
+        about.put(row, 0, OutCell::text(r.cell.to_string(), Style::Plain));
+        about.put(row, 1, OutCell::text(r.text.trim(), Style::Plain));
+        about.put(row, 2, OutCell::text(r.status.as_str(), Style::Plain));
+    }
+
+    Book { overlays, sheets: vec![fits, coef, ints, diag, guide, about], keep_formulas: true }
+}
+
+/// The first run of `width` columns at or right of `start` that are free in
+/// rows `top..=bottom`: no source cell, no request, no other fit's columns.
+fn free_columns(grid: &Grid, requests: &HashSet<(String, u32, u32)>, claimed: &[(u32, u32, u32)], start: u32, width: u32, top: u32, bottom: u32) -> u32 {
+    let busy = |c: u32| {
+        claimed.iter().any(|&(cc, a, b)| cc == c && a <= bottom && top <= b)
+            || (top..=bottom).any(|r| !matches!(grid.value(r, c), Value::Empty) || grid.formula(r, c).is_some() || requests.contains(&(grid.name.clone(), r, c)))
+    };
+    let mut c = start;
+    'search: loop {
+        for k in 0..width {
+            if busy(c + k) {
+                c = c + k + 1;
+                continue 'search;
+            }
+        }
+        return c;
+    }
+}
+
+/// The plain-language guide.
+fn guide_sheet(name: &str) -> Sheet {
+    let mut s = Sheet::new(name);
+    s.widths.insert(0, 28.0);
+    s.widths.insert(1, 100.0);
+    let entries: &[(&str, &str)] = &[
+        ("How to read this workbook", ""),
+        ("", "Each request cell on your sheets now shows its outcome; click it to jump to the fit's coefficients. The sheets after your own hold the results: Fits lists every request, Coefficients and Intervals the estimates, Diagnostics how well each fit describes the data."),
+        ("Columns beside your data", ""),
+        ("Fitted", "The value the fit predicts for that row."),
+        ("Residual", "Observed minus fitted. Residuals should look like random scatter around zero."),
+        ("Standardized residual", "The residual divided by its own standard error. Values beyond about ±2 are unusual, beyond ±3 rare."),
+        ("Leverage", "How far the row's predictor values lie from the others (0 to 1). A common rule of thumb (not a test) flags leverage above 2p/n, with p parameters and n rows."),
+        ("Cook's distance", "How much all fitted values would move if the row were left out. A common rule of thumb flags values above 4/n."),
+        ("Coefficients", ""),
+        ("Estimate", "The change in the response for one unit more of the term, the other terms held fixed. For a text column each level gets its own row (Bay=North): the difference from the base level."),
+        ("Standard error", "How precisely the estimate is known; smaller is more precise."),
+        ("t statistic", "Estimate divided by its standard error."),
+        ("p-value", "If the term truly had no effect, the chance of an estimate at least this far from zero. A small p-value (say below 0.05) is evidence of an effect; a large one is not evidence of no effect."),
+        ("Confidence interval", "The range of values of the coefficient consistent with the data at the stated level (0.95: 95 %). Narrow intervals mean precise estimates."),
+        ("Goodness of fit", ""),
+        ("R²", "The share of the response's variation the fit explains (0 to 1). Without an intercept it is the uncentred R², not comparable with the usual one."),
+        ("Adjusted R²", "R² penalised for the number of terms; use it to compare fits with different numbers of terms."),
+        ("Root mean squared error", "The typical size of a residual, in the response's units."),
+        ("F statistic and its p-value", "Whether the terms together explain more than chance would."),
+        ("Log-likelihood, AIC, BIC", "For comparing fits of the same response on the same rows: lower AIC or BIC is better."),
+        ("Condition number", "How close the terms are to being combinations of one another, after scaling; above about 1000 the estimates become unstable."),
+        ("Analysis of variance", "The split of the total sum of squares into the part the fit explains (regression) and the part left over (residual), with degrees of freedom and mean squares."),
+        ("Rows left out", "Rows with a blank, text or error cell in a column the request uses are left out and counted (missing=skip); missing=stop makes the request fail instead."),
+        ("Cautions", ""),
+        ("Association is not causation", "A fit shows how the response moves with the terms in these data. It does not show that changing a term would change the response."),
+        ("No extrapolation", "Predictions are only supported within the range of the data the fit was made from."),
+        ("A fit is only as good as its data", "Check the residual columns and the diagnostics before relying on a result. Decisions about safety, health or money rest with qualified people and the rules that apply where you are."),
+    ];
+    for (i, (k, v)) in entries.iter().enumerate() {
+        let style = if v.is_empty() { Style::Title } else { Style::Header };
+        if !k.is_empty() {
+            s.put(i as u32, 0, OutCell::text(*k, style));
+        }
+        if !v.is_empty() {
+            s.put(i as u32, 1, OutCell::text(*v, Style::Wrap));
+        }
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn result_sheets_do_not_clash_with_source_sheets() {
+        let taken: HashSet<String> = ["fits".to_string(), "fits (plumb)".to_string()].into_iter().collect();
+        assert_eq!(unique_name("Fits", &taken), "Fits 2");
+        assert_eq!(unique_name("Guide", &taken), "Guide");
+    }
+
+    #[test]
+    fn residual_columns_skip_busy_columns() {
+        let mut g = Grid::new("S");
+        g.set_text(0, 0, "y");
+        g.set_number(5, 4, 1.0); // a source cell in column E
+        let claimed = [(1u32, 0u32, 9u32)]; // column B taken by another fit
+        let c = free_columns(&g, &HashSet::new(), &claimed, 1, 2, 0, 9);
+        assert_eq!(c, 2);
+        let c = free_columns(&g, &HashSet::new(), &claimed, 1, 3, 0, 9);
+        assert_eq!(c, 5);
+    }
+}

@@ -1,0 +1,305 @@
+//! Running the stages: read → find → parse → resolve → fit → lay out → write.
+//!
+//! The pipeline collects every problem with its location and goes on past a
+//! failed request: an error in one request costs only that request. Only a
+//! problem with the input as a whole (it cannot be read, the output would
+//! overwrite it) stops the run, and then nothing is written.
+
+use crate::cells::{CellAddress, Workbook};
+use crate::fits::Registry;
+use crate::layout::{self, Report, RowsPlace, RunInfo, Status};
+use crate::problems::{closest, Problem};
+use crate::read::{self, ReadError};
+use crate::resolve::{self, FoundRequest};
+use crate::syntax;
+use crate::write::{self, WriteError, WriteOptions};
+use sha2::{Digest, Sha256};
+use std::collections::HashSet;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// What the user asked for.
+#[derive(Debug, Clone)]
+pub struct RunConfig {
+    /// The workbook to read.
+    pub input: PathBuf,
+    /// Where to write; `None` for `NAME.fitted.xlsx` beside the input.
+    pub output: Option<PathBuf>,
+    /// The time to record, seconds since 1970 (UTC); `None` for now.
+    pub created_unix: Option<i64>,
+}
+
+/// Why a run could not go ahead at all (exit status 2).
+#[derive(Debug)]
+pub enum RunError {
+    /// The input could not be read.
+    Read(ReadError),
+    /// The input file could not be opened for hashing.
+    Input { path: PathBuf, source: std::io::Error },
+    /// The output would replace the input.
+    OutputIsInput { path: PathBuf },
+    /// The output must be an xlsx file.
+    OutputFormat { path: PathBuf },
+    /// Writing failed.
+    Write(WriteError),
+}
+
+impl fmt::Display for RunError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            RunError::Read(e) => write!(f, "{e}"),
+            RunError::Input { path, source } => write!(f, "{}: cannot be read ({source})", path.display()),
+            RunError::OutputIsInput { path } => write!(
+                f,
+                "the output {} is the input itself; plumb never changes its input — choose another name with -o",
+                path.display()
+            ),
+            RunError::OutputFormat { path } => write!(f, "the output {} must end in .xlsx (plumb writes xlsx workbooks)", path.display()),
+            RunError::Write(e) => {
+                write!(f, "{e}")?;
+                if let Some(s) = std::error::Error::source(e) {
+                    write!(f, ": {s}")?;
+                }
+                Ok(())
+            }
+        }
+    }
+}
+
+impl std::error::Error for RunError {}
+
+/// The outcome of every request.
+#[derive(Debug, Clone)]
+pub struct Summary {
+    /// One report per request, in workbook order.
+    pub reports: Vec<Report>,
+    /// Every problem found, errors and warnings, located.
+    pub problems: Vec<Problem>,
+    /// The file written, for `run`.
+    pub output: Option<PathBuf>,
+}
+
+impl Summary {
+    /// Whether any request failed.
+    pub fn any_failed(&self) -> bool {
+        self.reports.iter().any(|r| r.status == Status::Error)
+    }
+}
+
+/// `NAME.fitted.xlsx` beside the input.
+pub fn default_output(input: &Path) -> PathBuf {
+    let stem = input.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "workbook".into());
+    input.with_file_name(format!("{stem}.fitted.xlsx"))
+}
+
+/// Whether `out` names the same file as `input`: the same path once links
+/// are followed, the same file on disk, or the same name in the same folder
+/// on a file system that ignores case.
+fn same_file(input: &Path, out: &Path) -> bool {
+    let canon = |p: &Path| -> Option<PathBuf> {
+        if let Ok(c) = p.canonicalize() {
+            return Some(c);
+        }
+        let parent = p.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+        Some(parent.canonicalize().ok()?.join(p.file_name()?))
+    };
+    let (Some(a), Some(b)) = (canon(input), canon(out)) else { return false };
+    if a == b {
+        return true;
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        if let (Ok(ma), Ok(mb)) = (std::fs::metadata(&a), std::fs::metadata(&b)) {
+            if ma.dev() == mb.dev() && ma.ino() == mb.ino() {
+                return true;
+            }
+        }
+    }
+    a.parent() == b.parent()
+        && a.file_name().map(|s| s.to_string_lossy().to_lowercase()) == b.file_name().map(|s| s.to_string_lossy().to_lowercase())
+}
+
+/// Unix seconds as `YYYY-MM-DD hh:mm:ss`.
+pub fn iso_time(unix: i64) -> String {
+    let (y, m, d, hh, mm, ss) = crate::cells::civil_from_unix(unix);
+    format!("{y:04}-{m:02}-{d:02} {hh:02}:{mm:02}:{ss:02}")
+}
+
+fn file_label(path: &Path) -> String {
+    path.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| path.display().to_string())
+}
+
+/// Reads the input and evaluates every request; writes nothing.
+pub fn evaluate(input: &Path, registry: &Registry) -> Result<(Workbook, Summary), RunError> {
+    let book = read::read_workbook(input).map_err(RunError::Read)?;
+    let summary = evaluate_book(&book, &file_label(input), registry);
+    Ok((book, summary))
+}
+
+/// Evaluates every request of a workbook already read.
+pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summary {
+    let found = resolve::find_requests(book);
+    let request_cells: HashSet<CellAddress> = found.iter().map(|f| f.cell.clone()).collect();
+    let mut reports = Vec::new();
+    let mut problems = Vec::new();
+    let mut names: HashSet<String> = HashSet::new();
+    for f in &found {
+        let (report, mut probs) = evaluate_one(book, f, registry, &request_cells, &mut names);
+        for p in &mut probs {
+            p.file = Some(file.to_string());
+        }
+        problems.extend(probs);
+        reports.push(report);
+    }
+    Summary { reports, problems, output: None }
+}
+
+fn evaluate_one(
+    book: &Workbook,
+    f: &FoundRequest,
+    registry: &Registry,
+    request_cells: &HashSet<CellAddress>,
+    names: &mut HashSet<String>,
+) -> (Report, Vec<Problem>) {
+    let mut report = Report {
+        name: f.cell.to_string(),
+        function: String::new(),
+        cell: f.cell.clone(),
+        text: f.text.clone(),
+        response: String::new(),
+        terms: Vec::new(),
+        level: 0.95,
+        rows_used: 0,
+        rows_left_out: 0,
+        status: Status::Error,
+        messages: Vec::new(),
+        outcome: None,
+        place: None,
+    };
+    let fail = |mut report: Report, p: Problem| {
+        report.messages = vec![p.one_line()];
+        report.status = Status::Error;
+        (report, vec![p])
+    };
+    let parsed = match syntax::parse_request(&f.text) {
+        Ok(r) => r,
+        Err(e) => {
+            let p = Problem::error(e.message.clone())
+                .at(f.cell.clone())
+                .in_text(&f.text, e.span.start, e.span.end)
+                .help(format!("expected {}", e.expected));
+            return fail(report, p);
+        }
+    };
+    let fname = parsed.function.name.to_lowercase();
+    report.function = fname.clone();
+    let Some(fit) = registry.get(&fname) else {
+        let near = closest(&fname, registry.names());
+        let all: Vec<&str> = registry.names().collect();
+        let help = match near.first() {
+            Some(n) => format!("did you mean #{n}? The functions are {} (see `plumb functions`)", all.join(", ")),
+            None => format!("the functions are {} (see `plumb functions`)", all.join(", ")),
+        };
+        let p = Problem::error(format!("there is no function #{}", parsed.function.name))
+            .at(f.cell.clone())
+            .in_text(&f.text, parsed.function.span.start, parsed.function.span.end)
+            .help(help);
+        return fail(report, p);
+    };
+    let resolved = match resolve::resolve(book, &f.cell, &f.text, &parsed, fit.spec(), request_cells) {
+        Ok(r) => r,
+        Err(p) => return fail(report, p),
+    };
+    if let Some(n) = &resolved.name {
+        report.name = n.clone();
+    }
+    if !names.insert(report.name.to_lowercase()) {
+        let p = Problem::error(format!("another request is already named '{}'", report.name))
+            .at(f.cell.clone())
+            .help("give each fit its own name=");
+        return fail(report, p);
+    }
+    report.response = resolved.response_label.clone();
+    report.terms = resolved.terms.clone();
+    report.level = resolved.request.level;
+    report.rows_used = resolved.request.rows();
+    report.rows_left_out = resolved.left_out.total();
+    let outcome = match fit.fit(&resolved.request) {
+        Ok(o) => o,
+        Err(e) => {
+            let mut p = Problem::error(e.message.clone()).at(f.cell.clone());
+            p.help = e.help.clone();
+            return fail(report, p);
+        }
+    };
+    if let Err(why) = outcome.check_shape(&resolved.request) {
+        let p = Problem::error(format!("the fit #{fname} returned a malformed result: {why}")).at(f.cell.clone());
+        return fail(report, p);
+    }
+    let mut problems = resolved.warnings.clone();
+    for w in &outcome.warnings {
+        problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
+    }
+    report.messages = problems.iter().map(|p| p.one_line()).collect();
+    report.status = if problems.is_empty() { Status::Ok } else { Status::Warning };
+    let pl = &resolved.placement;
+    report.place = Some(RowsPlace {
+        sheet: pl.sheet.clone(),
+        header_row: pl.header_row,
+        last_col: pl.last_col,
+        first_row: pl.first_row,
+        last_row: pl.last_row,
+        rows: pl.rows.clone(),
+    });
+    report.outcome = Some(outcome);
+    (report, problems)
+}
+
+/// `plumb run`: evaluates every request and writes the output workbook.
+pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError> {
+    let out = config.output.clone().unwrap_or_else(|| default_output(&config.input));
+    if same_file(&config.input, &out) {
+        return Err(RunError::OutputIsInput { path: out });
+    }
+    if !out.extension().is_some_and(|e| e.eq_ignore_ascii_case("xlsx")) {
+        return Err(RunError::OutputFormat { path: out });
+    }
+    let bytes = std::fs::read(&config.input).map_err(|source| RunError::Input { path: config.input.clone(), source })?;
+    let sha = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
+    drop(bytes);
+    let (book, mut summary) = evaluate(&config.input, registry)?;
+    let created = config.created_unix.unwrap_or_else(|| {
+        std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs() as i64).unwrap_or(0)
+    });
+    let info = RunInfo {
+        version: env!("CARGO_PKG_VERSION").into(),
+        input_name: file_label(&config.input),
+        input_sha256: sha,
+        time: iso_time(created),
+    };
+    let mut laid = layout::lay_out(&book, &summary.reports, &info);
+    let ext = config.input.extension().map(|e| e.to_string_lossy().to_lowercase()).unwrap_or_default();
+    laid.keep_formulas = ext != "ods";
+    write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    summary.output = Some(out);
+    Ok(summary)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn iso_time_of_known_instants() {
+        // 0 s is the Unix epoch; 1e9 s is 2001-09-09 01:46:40 UTC (common knowledge, POSIX time).
+        assert_eq!(iso_time(0), "1970-01-01 00:00:00");
+        assert_eq!(iso_time(1_000_000_000), "2001-09-09 01:46:40");
+        assert_eq!(iso_time(951_782_400), "2000-02-29 00:00:00");
+    }
+
+    #[test]
+    fn default_output_sits_beside_the_input() {
+        assert_eq!(default_output(Path::new("dir/book.xlsx")), PathBuf::from("dir/book.fitted.xlsx"));
+    }
+}

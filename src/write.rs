@@ -1,0 +1,425 @@
+//! Rendering the laid-out book and the source grids as an xlsx file.
+//!
+//! This is the only module that imports rust_xlsxwriter. Source sheets are
+//! streamed row by row in the writer's constant-memory mode (its temporary
+//! files go beside the output, not to the system's temp folder), merged with
+//! their [`Overlay`]: replaced request cells and added result columns. The
+//! file is written to a temporary name in the output's folder and renamed into
+//! place only when complete, so no half-written output is ever left behind.
+
+use crate::cells::{DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
+use crate::layout::{Book, Cached, Content, OutCell, Overlay, Sheet, Style};
+use rust_xlsxwriter::{DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
+use std::collections::HashMap;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// Why the output could not be written.
+#[derive(Debug)]
+pub enum WriteError {
+    /// The writer library refused something.
+    Xlsx { path: PathBuf, source: XlsxError },
+    /// A file-system step failed.
+    Io { path: PathBuf, action: &'static str, source: std::io::Error },
+}
+
+impl fmt::Display for WriteError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            WriteError::Xlsx { path, .. } => write!(f, "could not write the output workbook {}", path.display()),
+            WriteError::Io { path, action, .. } => write!(f, "could not {action} {}", path.display()),
+        }
+    }
+}
+
+impl std::error::Error for WriteError {
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        match self {
+            WriteError::Xlsx { source, .. } => Some(source),
+            WriteError::Io { source, .. } => Some(source),
+        }
+    }
+}
+
+/// How to write.
+#[derive(Debug, Clone)]
+pub struct WriteOptions {
+    /// The workbook's creation time, seconds since 1970 (UTC); pinned for
+    /// reproducible bytes.
+    pub created_unix: i64,
+    /// Deflate level of the zip container (0–9); 3 is most of the size for a
+    /// third less time than 6 (docs/benchmarks.md).
+    pub zip_level: u8,
+}
+
+/// Formats keyed by style and number-format code, made once each.
+struct Formats {
+    cache: HashMap<(Style, String), Format>,
+}
+
+/// A number format showing `x` to six significant digits; the cell keeps
+/// every digit. Fixed notation between 0.0001 and 10⁷, scientific outside.
+fn significant_code(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return "0".into();
+    }
+    let mag = x.abs().log10().floor() as i32;
+    if (-4..7).contains(&mag) {
+        let decimals = (5 - mag).clamp(0, 10) as usize;
+        if decimals == 0 {
+            "0".into()
+        } else {
+            format!("0.{}", "0".repeat(decimals))
+        }
+    } else {
+        "0.00000E+00".into()
+    }
+}
+
+impl Formats {
+    fn new() -> Self {
+        Formats { cache: HashMap::new() }
+    }
+
+    fn get(&mut self, style: Style, value: Option<f64>) -> &Format {
+        let code = match (style, value) {
+            (Style::Number, Some(x)) => significant_code(x),
+            (Style::PValue, Some(x)) if x < 1e-4 => "0.00E+00".into(),
+            (Style::PValue, _) => "0.0000".into(),
+            (Style::Integer, _) => "0".into(),
+            (Style::Date, _) => "yyyy-mm-dd".into(),
+            (Style::DateTime, _) => "yyyy-mm-dd hh:mm:ss".into(),
+            (Style::Time, _) => "[h]:mm:ss".into(),
+            _ => String::new(),
+        };
+        self.cache.entry((style, code.clone())).or_insert_with(|| {
+            let mut f = Format::new();
+            if !code.is_empty() {
+                f = f.set_num_format(&code);
+            }
+            match style {
+                Style::Header => f.set_bold().set_background_color(0xDDE7F0).set_border_bottom(FormatBorder::Thin),
+                Style::Title => f.set_bold().set_font_size(13),
+                Style::Wrap => f.set_text_wrap().set_align(rust_xlsxwriter::FormatAlign::Top),
+                Style::Good => f.set_bold(),
+                Style::Warning => f.set_font_color(0x9C5700),
+                Style::Error => f.set_font_color(0x9C0006).set_bold(),
+                Style::Link => f.set_font_color(0x0563C1).set_underline(rust_xlsxwriter::FormatUnderline::Single),
+                _ => f,
+            }
+        })
+    }
+}
+
+fn date_style(kind: DateKind) -> Style {
+    match kind {
+        DateKind::Date => Style::Date,
+        DateKind::DateTime => Style::DateTime,
+        DateKind::Time => Style::Time,
+    }
+}
+
+fn xerr(path: &Path) -> impl Fn(XlsxError) -> WriteError + '_ {
+    move |source| WriteError::Xlsx { path: path.to_path_buf(), source }
+}
+
+/// Writes one model cell.
+fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell, path: &Path) -> Result<(), WriteError> {
+    let e = xerr(path);
+    let num = match cell.content {
+        Content::Number(x) => Some(x),
+        _ => None,
+    };
+    if let Some(target) = &cell.link {
+        let text = match &cell.content {
+            Content::Text(t) => t.clone(),
+            Content::Number(x) => format!("{x}"),
+            _ => String::new(),
+        };
+        let f = fm.get(cell.style, num).clone();
+        ws.write_url_with_format(row, col, Url::new(format!("internal:{target}")).set_text(text), &f).map_err(&e)?;
+    } else {
+        write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
+    }
+    if let Some(n) = &cell.note {
+        ws.insert_note(row, col, &Note::new(n).add_author_prefix(false)).map_err(&e)?;
+    }
+    Ok(())
+}
+
+fn error_formula(err: ErrorValue) -> Formula {
+    Formula::new(format!("={}", err.as_str())).set_result(err.as_str())
+}
+
+fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, content: &Content, style: Style, path: &Path) -> Result<(), WriteError> {
+    let e = xerr(path);
+    match content {
+        Content::Blank => {
+            if style != Style::Plain {
+                let f = fm.get(style, None).clone();
+                ws.write_blank(row, col, &f).map_err(&e)?;
+            }
+        }
+        Content::Number(x) => {
+            if style == Style::Plain {
+                ws.write_number(row, col, *x).map_err(&e)?;
+            } else {
+                let f = fm.get(style, Some(*x)).clone();
+                ws.write_number_with_format(row, col, *x, &f).map_err(&e)?;
+            }
+        }
+        Content::Text(t) => {
+            if style == Style::Plain {
+                ws.write_string(row, col, t).map_err(&e)?;
+            } else {
+                let f = fm.get(style, None).clone();
+                ws.write_string_with_format(row, col, t, &f).map_err(&e)?;
+            }
+        }
+        Content::Bool(b) => {
+            ws.write_boolean(row, col, *b).map_err(&e)?;
+        }
+        Content::DateTime(x, kind) => {
+            let f = fm.get(if style == Style::Plain { date_style(*kind) } else { style }, None).clone();
+            ws.write_number_with_format(row, col, *x, &f).map_err(&e)?;
+        }
+        Content::Error(err) => {
+            ws.write_formula(row, col, error_formula(*err)).map_err(&e)?;
+        }
+        Content::Formula(text, cached) => {
+            let result = match cached {
+                Cached::Empty => String::new(),
+                Cached::Number(x) => format!("{x}"),
+                Cached::Text(t) => t.clone(),
+                Cached::Bool(b) => if *b { "TRUE".into() } else { "FALSE".into() },
+                Cached::Error(err) => err.as_str().into(),
+            };
+            let formula = Formula::new(format!("={text}")).set_result(result);
+            match cached {
+                Cached::Number(x) if style != Style::Plain => {
+                    let f = fm.get(style, Some(*x)).clone();
+                    ws.write_formula_with_format(row, col, formula, &f).map_err(&e)?;
+                }
+                _ => {
+                    ws.write_formula(row, col, formula).map_err(&e)?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The content of a source cell.
+fn source_content(grid: &Grid, row: u32, col: u32, keep_formulas: bool) -> Option<Content> {
+    let v = grid.value(row, col);
+    if keep_formulas {
+        if let Some(f) = grid.formula(row, col) {
+            let cached = match v {
+                Value::Empty => Cached::Empty,
+                Value::Number(x) | Value::DateTime(x, _) => Cached::Number(x),
+                Value::Text(t) => Cached::Text(t.to_string()),
+                Value::Bool(b) => Cached::Bool(b),
+                Value::Error(e) => Cached::Error(e),
+            };
+            return Some(Content::Formula(f.to_string(), cached));
+        }
+    }
+    Some(match v {
+        Value::Empty => return None,
+        Value::Number(x) => Content::Number(x),
+        Value::Text(t) => Content::Text(t.to_string()),
+        Value::Bool(b) => Content::Bool(b),
+        Value::DateTime(x, k) => Content::DateTime(x, k),
+        Value::Error(e) => Content::Error(e),
+    })
+}
+
+/// A sheet name the output format accepts: at most 31 characters, none of
+/// `[]:*?/\`, not blank.
+pub fn valid_sheet_name(name: &str) -> String {
+    let cleaned: String = name.chars().map(|c| if "[]:*?/\\".contains(c) { '_' } else { c }).collect();
+    let cleaned = cleaned.trim_matches('\'').to_string();
+    let cut: String = cleaned.chars().take(31).collect();
+    if cut.trim().is_empty() {
+        "Sheet".into()
+    } else {
+        cut
+    }
+}
+
+fn write_source(ws: &mut Worksheet, fm: &mut Formats, grid: &Grid, ov: &Overlay, keep_formulas: bool, path: &Path) -> Result<(), WriteError> {
+    let e = xerr(path);
+    for (c, w) in &ov.widths {
+        ws.set_column_width(*c as u16, *w).map_err(&e)?;
+    }
+    // Rows that hold anything, ascending: constant-memory mode writes rows in order.
+    let ext = grid.extent();
+    let mut lo = ext.map(|x| x.first_row).unwrap_or(u32::MAX);
+    let mut hi = ext.map(|x| x.last_row).unwrap_or(0);
+    for (r, _) in ov.cells.keys() {
+        lo = lo.min(*r);
+        hi = hi.max(*r);
+    }
+    for b in &ov.blocks {
+        for r in b.header.iter().map(|h| h.0).chain(b.rows.first().copied()).chain(b.rows.last().copied()) {
+            lo = lo.min(r);
+            hi = hi.max(r);
+        }
+    }
+    if lo > hi {
+        return Ok(());
+    }
+    let mut next: Vec<usize> = vec![0; ov.blocks.len()];
+    for r in lo..=hi {
+        if let Some(x) = ext {
+            if (x.first_row..=x.last_row).contains(&r) {
+                for c in x.first_col..=x.last_col {
+                    if ov.cells.contains_key(&(r, c)) {
+                        continue;
+                    }
+                    if let Some(content) = source_content(grid, r, c, keep_formulas) {
+                        write_content(ws, fm, r, c as u16, &content, Style::Plain, path)?;
+                    }
+                }
+            }
+        }
+        for ((_, c), cell) in ov.cells.range((r, 0)..=(r, u32::MAX)) {
+            put(ws, fm, r, *c as u16, cell, path)?;
+        }
+        for (bi, b) in ov.blocks.iter().enumerate() {
+            if let Some((hr, h)) = &b.header {
+                if *hr == r {
+                    put(ws, fm, r, b.col as u16, &OutCell::text(h, Style::Header), path)?;
+                }
+            }
+            let i = &mut next[bi];
+            while *i < b.rows.len() && b.rows[*i] < r {
+                *i += 1;
+            }
+            if *i < b.rows.len() && b.rows[*i] == r {
+                let x = b.values[*i];
+                if x.is_finite() {
+                    let f = fm.get(Style::Number, Some(x)).clone();
+                    ws.write_number_with_format(r, b.col as u16, x, &f).map_err(&e)?;
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+fn write_result(ws: &mut Worksheet, fm: &mut Formats, sheet: &Sheet, path: &Path) -> Result<(), WriteError> {
+    let e = xerr(path);
+    for (c, w) in &sheet.widths {
+        ws.set_column_width(*c as u16, *w).map_err(&e)?;
+    }
+    for ((r, c), cell) in &sheet.cells {
+        put(ws, fm, *r, *c as u16, cell, path)?;
+    }
+    if let Some((r, c)) = sheet.freeze {
+        ws.set_freeze_panes(r, c as u16).map_err(&e)?;
+    }
+    if let Some(f) = sheet.filter {
+        ws.autofilter(f.first_row, f.first_col as u16, f.last_row, f.last_col as u16).map_err(&e)?;
+    }
+    Ok(())
+}
+
+/// Unix seconds to the workbook's date-time.
+fn excel_time(unix: i64) -> Result<ExcelDateTime, XlsxError> {
+    let (y, m, d, hh, mm, ss) = crate::cells::civil_from_unix(unix);
+    let year = u16::try_from(y.clamp(1900, 9999)).unwrap_or(1900);
+    ExcelDateTime::from_ymd(year, m as u8, d as u8)?.and_hms(hh as u16, mm as u8, ss as f64)
+}
+
+/// Writes the output atomically: a temporary file beside `out`, renamed onto
+/// it when complete. On any error the temporary file is removed and `out` is
+/// left as it was.
+pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOptions) -> Result<(), WriteError> {
+    let dir = match out.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
+    let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
+    let result = build(source, book, &tmp, &dir, opts);
+    let result = result.and_then(|()| {
+        std::fs::rename(&tmp, out).map_err(|source| WriteError::Io { path: out.to_path_buf(), action: "move the finished output to", source })
+    });
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
+}
+
+fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOptions) -> Result<(), WriteError> {
+    let e = xerr(tmp);
+    let mut wb = XlsxBook::new();
+    wb.set_tempdir(dir).map_err(&e)?;
+    wb.set_zip_compression_level(opts.zip_level);
+    let created = excel_time(opts.created_unix).map_err(&e)?;
+    wb.set_properties(&DocProperties::new().set_creation_datetime(&created));
+    let mut fm = Formats::new();
+    let first_visible = source.sheets.iter().position(|g| g.visibility == Visibility::Visible);
+    let mut used_names: Vec<String> = Vec::new();
+    for (i, grid) in source.sheets.iter().enumerate() {
+        let mut name = valid_sheet_name(&grid.name);
+        let mut k = 2;
+        while used_names.iter().any(|n| n.to_lowercase() == name.to_lowercase()) {
+            let suffix = format!(" {k}");
+            name = format!("{}{suffix}", name.chars().take(31 - suffix.len()).collect::<String>());
+            k += 1;
+        }
+        used_names.push(name.clone());
+        let ws = wb.add_worksheet_with_constant_memory().map_err(&e)?;
+        ws.set_name(&name).map_err(&e)?;
+        match grid.visibility {
+            Visibility::Visible => {}
+            Visibility::Hidden => {
+                ws.set_hidden(true);
+            }
+            Visibility::VeryHidden => {
+                ws.set_very_hidden(true);
+            }
+        }
+        if Some(i) == first_visible {
+            ws.set_active(true);
+        }
+        // A formula whose last value was empty text stays empty, not 0.
+        ws.set_formula_result_default("");
+        let empty = Overlay::default();
+        let ov = book.overlays.get(i).unwrap_or(&empty);
+        write_source(ws, &mut fm, grid, ov, book.keep_formulas, tmp)?;
+    }
+    for (i, sheet) in book.sheets.iter().enumerate() {
+        let ws = wb.add_worksheet();
+        ws.set_name(&sheet.name).map_err(&e)?;
+        if first_visible.is_none() && i == 0 {
+            ws.set_active(true);
+        }
+        write_result(ws, &mut fm, sheet, tmp)?;
+    }
+    wb.save(tmp).map_err(&e)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn six_significant_digits() {
+        assert_eq!(significant_code(3.25), "0.00000");
+        assert_eq!(significant_code(-1234.5678), "0.00");
+        assert_eq!(significant_code(0.000123456), "0.000000000");
+        assert_eq!(significant_code(1.0e-9), "0.00000E+00");
+        assert_eq!(significant_code(123456789.0), "0.00000E+00");
+    }
+
+    #[test]
+    fn sheet_names_are_made_valid() {
+        assert_eq!(valid_sheet_name("a/b:c"), "a_b_c");
+        assert_eq!(valid_sheet_name(&"x".repeat(40)).chars().count(), 31);
+        assert_eq!(valid_sheet_name("Données"), "Données");
+    }
+}

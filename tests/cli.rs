@@ -1,0 +1,121 @@
+//! The binary as a user runs it: `run`, `check`, `functions`, exit statuses,
+//! messages on standard error, nothing written when the input is unusable.
+
+mod common;
+
+use common::workbooks;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn plumb(args: &[&str], dir: &Path) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_plumb")).args(args).current_dir(dir).env("SOURCE_DATE_EPOCH", "1767225600").output().expect("run plumb")
+}
+
+fn dir(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("plumb-cli-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn small_book(path: &Path, requests: &[(u32, u32, &str)]) {
+    let x: Vec<Option<f64>> = (0..12).map(|i| Some(i as f64)).collect();
+    let y: Vec<Option<f64>> = (0..12).map(|i| Some(2.0 * i as f64 + if i % 2 == 0 { 0.5 } else { -0.5 })).collect();
+    workbooks::write_table(path, "Data", &["Light", "Yield"], &[x, y], requests);
+}
+
+fn no_panic(o: &Output) {
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!err.contains("panicked"), "panic: {err}");
+}
+
+#[test]
+fn run_writes_the_output_and_exits_zero_when_all_fit() {
+    let d = dir("ok");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
+    let o = plumb(&["run", "book.xlsx"], &d);
+    no_panic(&o);
+    assert_eq!(o.status.code(), Some(0), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(d.join("book.fitted.xlsx").exists());
+    let names = common::output::sheet_names(&d.join("book.fitted.xlsx"));
+    for s in ["Data", "Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About"] {
+        assert!(names.iter().any(|n| n == s), "missing sheet {s} in {names:?}");
+    }
+    // No temporary file is left beside the output.
+    let left: Vec<_> = std::fs::read_dir(&d).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+    assert_eq!(left.len(), 2, "{left:?}");
+}
+
+#[test]
+fn a_failed_request_exits_one_shows_a_caret_and_still_writes() {
+    let d = dir("fail");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Ligth)"), (1, 4, "#linear(Yield, Light, name=good)")]);
+    let o = plumb(&["run", "book.xlsx", "-o", "result.xlsx"], &d);
+    no_panic(&o);
+    assert_eq!(o.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("book.xlsx, Data!E1: error: there is no column headed 'Ligth'"), "{err}");
+    assert!(err.contains("    #linear(Yield, Ligth)\n                   ^^^^^\n"), "{err}");
+    assert!(err.contains("did you mean Light?"), "{err}");
+    assert!(d.join("result.xlsx").exists());
+    let coefs = common::output::coefficients(&d.join("result.xlsx"), "good");
+    assert_eq!(coefs.len(), 2);
+}
+
+#[test]
+fn check_prints_status_and_writes_nothing() {
+    let d = dir("check");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)"), (1, 4, "#lineer(Yield, Light)")]);
+    let o = plumb(&["check", "book.xlsx"], &d);
+    no_panic(&o);
+    assert_eq!(o.status.code(), Some(1));
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(out.contains("ok") && out.contains("error"), "{out}");
+    assert!(String::from_utf8_lossy(&o.stderr).contains("did you mean #linear?"));
+    assert_eq!(std::fs::read_dir(&d).unwrap().count(), 1);
+}
+
+#[test]
+fn functions_lists_the_vocabulary() {
+    let d = dir("functions");
+    let o = plumb(&["functions"], &d);
+    assert_eq!(o.status.code(), Some(0));
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(out.contains("#linear(response, terms"), "{out}");
+    for opt in ["level=", "intercept=", "weights=", "missing=", "data=", "name="] {
+        assert!(out.contains(opt), "{opt} missing from {out}");
+    }
+}
+
+#[test]
+fn an_unusable_input_exits_two_and_writes_nothing() {
+    let d = dir("bad");
+    std::fs::write(d.join("notes.xlsx"), b"this is not a workbook").unwrap();
+    let o = plumb(&["run", "notes.xlsx"], &d);
+    no_panic(&o);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("notes.xlsx"));
+    assert_eq!(std::fs::read_dir(&d).unwrap().count(), 1);
+}
+
+#[test]
+fn the_output_may_not_be_the_input() {
+    let d = dir("same");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
+    let before = std::fs::read(d.join("book.xlsx")).unwrap();
+    for target in ["book.xlsx", "./book.xlsx", "BOOK.xlsx"] {
+        let o = plumb(&["run", "book.xlsx", "-o", target], &d);
+        assert_eq!(o.status.code(), Some(2), "{target}");
+        assert!(String::from_utf8_lossy(&o.stderr).contains("is the input itself"));
+    }
+    assert_eq!(std::fs::read(d.join("book.xlsx")).unwrap(), before);
+}
+
+#[test]
+fn pinned_time_gives_identical_bytes() {
+    let d = dir("repro");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
+    assert_eq!(plumb(&["run", "book.xlsx", "-o", "a.xlsx"], &d).status.code(), Some(0));
+    assert_eq!(plumb(&["run", "book.xlsx", "-o", "b.xlsx"], &d).status.code(), Some(0));
+    assert_eq!(std::fs::read(d.join("a.xlsx")).unwrap(), std::fs::read(d.join("b.xlsx")).unwrap());
+}

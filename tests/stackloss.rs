@@ -1,0 +1,71 @@
+//! Stack loss (Brownlee 1965) through the whole tool against the statsmodels
+//! 0.15.0 OLS figures quoted in ../shared/reference/datasets/README.md, to 9
+//! significant digits. The data file tests/data/stackloss.csv is the
+//! statsmodels package's copy (public domain).
+
+mod common;
+
+use common::{output, workbooks};
+use plumb::fits::Registry;
+use plumb::pipeline::{run, RunConfig};
+
+fn close(got: f64, want: f64, what: &str) {
+    let rel = ((got - want) / want).abs();
+    assert!(rel < 5e-9, "{what}: got {got}, statsmodels 0.15.0 gives {want} (relative difference {rel:.1e})");
+}
+
+fn stackloss() -> Vec<Vec<f64>> {
+    let text = include_str!("data/stackloss.csv");
+    let mut cols = vec![Vec::new(); 4];
+    for line in text.lines().skip(1).filter(|l| !l.trim().is_empty()) {
+        for (i, v) in line.split(',').enumerate() {
+            cols[i].push(v.trim().parse::<f64>().unwrap());
+        }
+    }
+    cols
+}
+
+#[test]
+fn stack_loss_matches_statsmodels_to_nine_digits() {
+    let cols = stackloss();
+    let dir = std::env::temp_dir().join(format!("plumb-stackloss-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let input = dir.join("stackloss.xlsx");
+    let opt: Vec<Vec<Option<f64>>> = cols.iter().map(|c| c.iter().map(|v| Some(*v)).collect()).collect();
+    workbooks::write_table(
+        &input,
+        "Plant",
+        &["STACKLOSS", "AIRFLOW", "WATERTEMP", "ACIDCONC"],
+        &opt,
+        &[(1, 6, "#linear(STACKLOSS, AIRFLOW + WATERTEMP + ACIDCONC, name=stack)")],
+    );
+    let out = dir.join("out.xlsx");
+    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    assert!(!s.any_failed(), "{:?}", s.problems);
+    let coefs = output::coefficients(&out, "stack");
+    // statsmodels 0.15.0, datasets/README.md table "Stack loss OLS figures".
+    let want = [
+        ("(intercept)", -39.91967442, 11.89599685, -3.355723351),
+        ("AIRFLOW", 0.7156402005, 0.1348581854, 5.306613007),
+        ("WATERTEMP", 1.295286124, 0.3680242653, 3.519567177),
+        ("ACIDCONC", -0.1521225191, 0.1562940432, -0.9733097691),
+    ];
+    assert_eq!(coefs.len(), 4);
+    for (c, (term, b, se, t)) in coefs.iter().zip(want) {
+        assert_eq!(c.term, term);
+        close(c.estimate.unwrap(), b, &format!("{term} estimate"));
+        close(c.std_error.unwrap(), se, &format!("{term} standard error"));
+        close(c.t.unwrap(), t, &format!("{term} t"));
+    }
+    let stat = |label: &str| output::statistic(&out, "stack", label).unwrap_or_else(|| panic!("no {label}"));
+    close(stat("R²"), 0.9135769045, "R²");
+    close(stat("Adjusted R²"), 0.8983257700, "adjusted R²");
+    close(stat("F statistic"), 59.90222590, "F");
+    close(stat("p-value of F"), 3.016327243e-09, "p of F");
+    close(stat("Root mean squared error"), 3.243363918, "residual SD");
+    close(stat("Sum of squares, residual"), 178.8299616, "SSE");
+    close(stat("Log-likelihood"), -52.28779550, "log-likelihood");
+    close(stat("AIC"), 112.5755910, "AIC");
+    close(stat("BIC"), 116.7536808, "BIC");
+    let _ = std::fs::remove_dir_all(&dir);
+}
