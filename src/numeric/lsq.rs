@@ -41,8 +41,9 @@ use super::{inference, LsError, LsFit, LsProblem};
 ///   condition numbers up to ~1e10 for Filip's raw powers) stay full rank.
 /// - It is stricter than LAPACK-style `max(n,p)·u` cut-offs, which would
 ///   keep columns whose coefficients carry no correct digit in double
-///   precision, and looser than R's `lm` default of 1e-7, which is a
-///   statistical rather than a numerical judgement.
+///   precision, and much looser than cut-offs of order 1e-7, which make a
+///   statistical rather than a numerical judgement (a column that is
+///   merely highly collinear is kept; its large standard error says so).
 pub const RANK_TOLERANCE: f64 = 1e-11;
 
 /// The solution refinement stops once a correction is at most this

@@ -656,6 +656,19 @@ fn longley_is_full_rank() {
 // Scale: 1,000,000 rows × 12 columns (run with `--ignored`; reports timing,
 // asserts only that the fit is sane).
 
+/// CPU seconds (user + system) of this process so far, from
+/// /proc/self/stat (Linux; clock ticks of 1/100 s), or NaN elsewhere. Wall
+/// time on a shared machine mostly measures the neighbours.
+fn cpu_seconds() -> f64 {
+    let Ok(stat) = std::fs::read_to_string("/proc/self/stat") else { return f64::NAN };
+    // Fields after the parenthesised command name; utime and stime are the
+    // 14th and 15th fields overall.
+    let Some(rest) = stat.rsplit(')').next() else { return f64::NAN };
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let tick = |i: usize| f.get(i).and_then(|v| v.parse::<f64>().ok()).unwrap_or(f64::NAN);
+    (tick(11) + tick(12)) / 100.0
+}
+
 #[test]
 #[ignore]
 fn large_fit_timing() {
@@ -677,11 +690,13 @@ fn large_fit_timing() {
         .collect();
     let prob = LsProblem { x: &x, n, p, y: &y, weights: None, has_intercept: true };
     let t0 = std::time::Instant::now();
+    let c0 = cpu_seconds();
     let fit = least_squares(&prob).expect("well-posed invented problem");
     let el = t0.elapsed();
     println!(
-        "n={n} p={p}: {:.3} s, rank {}, R² {:.6}, steps {}, cov {:?}/{}",
+        "n={n} p={p}: {:.3} s wall, {:.2} s CPU, rank {}, R² {:.6}, steps {}, cov {:?}/{}",
         el.as_secs_f64(),
+        cpu_seconds() - c0,
         fit.rank,
         fit.r_squared,
         fit.refinement.solution_steps,
@@ -694,15 +709,21 @@ fn large_fit_timing() {
     // An exactly collinear 13th column (x₁ + x₂) is caught at this size.
     let mut x13 = x.clone();
     x13.extend((0..n).map(|i| x[n + i] + x[2 * n + i]));
-    let t2 = std::time::Instant::now();
+    let (t2, c2) = (std::time::Instant::now(), cpu_seconds());
     let cfit = least_squares(&LsProblem { x: &x13, p: p + 1, ..prob }).expect("well-posed");
-    println!("with an aliased 13th column: {:.3} s, rank {}, alias_of {:?}", t2.elapsed().as_secs_f64(), cfit.rank, cfit.alias_of[p]);
+    println!(
+        "with an aliased 13th column: {:.3} s wall, {:.2} s CPU, rank {}, alias_of {:?}",
+        t2.elapsed().as_secs_f64(),
+        cpu_seconds() - c2,
+        cfit.rank,
+        cfit.alias_of[p]
+    );
     assert_eq!(cfit.rank, p);
     assert!(cfit.aliased[p]);
     assert_eq!(cfit.alias_of[p].iter().map(|e| e.0).collect::<Vec<_>>(), vec![1, 2]);
     drop(x13);
     let w: Vec<f64> = (0..n).map(|i| 1.0 + (i % 3) as f64).collect();
-    let t1 = std::time::Instant::now();
+    let (t1, c1) = (std::time::Instant::now(), cpu_seconds());
     let wfit = least_squares(&LsProblem { weights: Some(&w), ..prob }).expect("well-posed");
-    println!("weighted: {:.3} s, rank {}", t1.elapsed().as_secs_f64(), wfit.rank);
+    println!("weighted: {:.3} s wall, {:.2} s CPU, rank {}", t1.elapsed().as_secs_f64(), cpu_seconds() - c1, wfit.rank);
 }
