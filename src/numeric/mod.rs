@@ -10,12 +10,14 @@
 //! accurately accumulated *residual* when refining the covariance matrix.
 //!
 //! Submodules: [`dd`] (double-double arithmetic), [`qr`] (pivoted Householder
-//! QR), [`lsq`] (the least squares driver and refinement), [`inference`]
+//! QR), [`lsq`] (the least squares driver and refinement), [`poly`]
+//! (power columns fitted in a centred, scaled basis), [`inference`]
 //! (distributions and tests built on statrs).
 
 pub mod dd;
 pub mod inference;
 pub mod lsq;
+pub mod poly;
 pub mod qr;
 
 #[cfg(test)]
@@ -26,6 +28,7 @@ pub use inference::{
     CoefficientRow,
 };
 pub use lsq::{least_squares, CovarianceMethod, Refinement, RANK_TOLERANCE};
+pub use poly::{least_squares_powers, PowerGroup};
 
 use std::fmt;
 
