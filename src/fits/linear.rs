@@ -64,6 +64,32 @@ impl Default for Linear {
     }
 }
 
+/// The power columns of a request grouped by base (`Light`, `Light^2`, …):
+/// `(base values, [(design column, exponent)])`, design columns counted
+/// after the intercept. A repeated exponent of one base is left as a plain
+/// column (it is then aliased).
+pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], Vec<(usize, u32)>)> {
+    let off = usize::from(req.intercept);
+    let n = req.rows();
+    let mut groups: Vec<(String, &[f64], Vec<(usize, u32)>)> = Vec::new();
+    for (j, c) in req.columns.iter().enumerate() {
+        let Some(pw) = &c.power else { continue };
+        if pw.base_values.len() != n || pw.exponent == 0 {
+            continue;
+        }
+        let key = pw.base.to_lowercase();
+        match groups.iter_mut().find(|g| g.0 == key) {
+            Some(g) => {
+                if !g.2.iter().any(|e| e.1 == pw.exponent) {
+                    g.2.push((j + off, pw.exponent));
+                }
+            }
+            None => groups.push((key, &pw.base_values, vec![(j + off, pw.exponent)])),
+        }
+    }
+    groups.into_iter().map(|g| (g.1, g.2)).collect()
+}
+
 fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic { key: key.into(), label: label.into(), group: group.into(), value }
 }
@@ -101,7 +127,13 @@ impl Fit for Linear {
             weights: req.weights.as_deref(),
             has_intercept: req.intercept,
         };
-        let fit = numeric::least_squares(&problem).map_err(|e| FitError::new(e.to_string()))?;
+        let fit = {
+            let groups = power_groups(req);
+            let groups: Vec<numeric::PowerGroup> =
+                groups.iter().map(|(base, cols)| numeric::PowerGroup { base, columns: cols }).collect();
+            numeric::least_squares_powers(&problem, &groups, req.intercept.then_some(0))
+        }
+        .map_err(|e| FitError::new(e.to_string()))?;
         let mut out = FitOutcome::default();
         let table = numeric::coefficient_table(&fit, req.level);
         for (j, row) in table.iter().enumerate() {
