@@ -24,8 +24,8 @@ pub mod qr;
 mod tests;
 
 pub use inference::{
-    chi2_sf, coefficient_table, cooks_distance, f_sf, standardized_residuals, t_quantile, t_sf,
-    CoefficientRow,
+    chi2_cdf, chi2_quantile, chi2_sf, coefficient_table, cooks_distance, f_cdf, f_quantile, f_sf,
+    standardized_residuals, t_quantile, t_sf, CoefficientRow,
 };
 pub use lsq::{least_squares, CovarianceMethod, Refinement, RANK_TOLERANCE};
 pub use poly::{least_squares_powers, PowerGroup};
