@@ -178,6 +178,9 @@ impl Fit for Linear {
             stat("ss_resid", "Sum of squares, residual", a, fit.sse),
             stat("ms_resid", "Mean square, residual", a, fit.sse / fit.df_resid),
             stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
+            stat("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
+            stat("anova_f", "F (mean square regression / mean square residual)", a, fit.f_statistic),
+            stat("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());
