@@ -130,3 +130,25 @@ fn a_tiny_p_value_is_written_as_such_not_zero() {
     assert!(((p - want) / want).abs() < 1e-12, "{p} vs {want}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn a_polynomial_on_too_few_distinct_values_names_the_aliased_power() {
+    // Light takes only three distinct values, so Light³ is an exact
+    // combination of 1, Light, Light² (common practice: a cubic through
+    // three points is not identifiable).
+    let mut g = Grid::new("Bays");
+    g.set_text(0, 0, "Light");
+    g.set_text(0, 1, "Yield");
+    for i in 0..12u32 {
+        let light = [6.0, 8.0, 11.0][i as usize % 3];
+        g.set_number(i + 1, 0, light);
+        g.set_number(i + 1, 1, 2.0 + 0.3 * light + 0.01 * (i % 5) as f64);
+    }
+    g.set_text(1, 3, "#polynomial(Yield, Light, degree=3)");
+    let s = evaluate_book(&Workbook { sheets: vec![g] }, "book.xlsx", &Registry::builtin());
+    let o = s.reports[0].outcome.as_ref().expect("fitted with a warning");
+    let est: Vec<bool> = o.coefficients.iter().map(|c| c.estimate.is_some()).collect();
+    assert_eq!(est, [true, true, true, false], "{:?}", o.coefficients);
+    assert!(o.warnings.iter().any(|w| w.starts_with("the term Light^3 is an exact combination of")), "{:?}", o.warnings);
+    assert_eq!(o.statistic("parameters"), Some(3.0));
+}

@@ -661,6 +661,18 @@ fn longley_is_full_rank() {
     assert!(fit.aliased.iter().all(|a| !a));
 }
 
+#[test]
+fn filip_is_full_rank_in_the_centred_basis() {
+    // NIST StRD Filip.dat: 11 certified parameters, so full rank; the
+    // centred, scaled basis has a condition number of order 1e3 (measured),
+    // far inside the rank tolerance.
+    let Some(d) = load("Filip") else { return };
+    let (l, fit) = nist_lres(&d);
+    assert_eq!(fit.rank, 11);
+    assert!(fit.condition_number < 1e5, "{}", fit.condition_number);
+    assert!(l[0] >= 13.0, "coefficients LRE {}", l[0]);
+}
+
 
 // ---------------------------------------------------------------------------
 // Scale: 1,000,000 rows × 12 columns (run with `--ignored`; reports timing,
