@@ -498,12 +498,11 @@ impl Ctx<'_> {
                 // `base^k` with a whole k: remember the base for the fit.
                 let power = match (op, &rhs.kind) {
                     (BinOp::Pow, ExprKind::Number(k)) if k.fract() == 0.0 && *k >= 1.0 && *k <= MAX_POWER => {
-                        let base = match &a.power {
+                        match &a.power {
                             // (x^2)^3 is not recorded.
                             Some(_) => None,
                             None => Some(Box::new((typed(self.text, lhs.span), *k as u32, a.values.clone()))),
-                        };
-                        base
+                        }
                     }
                     _ => None,
                 };

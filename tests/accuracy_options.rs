@@ -26,12 +26,11 @@ fn book(request: &str, beds: &[Option<&str>]) -> Workbook {
         let light = 6.0 + i as f64 * 0.5;
         g.set_number(r, 1, light);
         g.set_number(r, 2, 1.5 + 0.4 * light + 0.05 * ((i * 7) % 5) as f64);
-        match b {
-            Some(t) => match t.parse::<f64>() {
+        if let Some(t) = b {
+            match t.parse::<f64>() {
                 Ok(x) => g.set_number(r, 3, x),
                 Err(_) => g.set_text(r, 3, t),
-            },
-            None => {}
+            }
         }
     }
     g.set_text(1, 5, request);

@@ -64,14 +64,17 @@ impl Default for Linear {
     }
 }
 
+/// `(design column, exponent)` of the powers of one base.
+pub(crate) type PowerColumns = Vec<(usize, u32)>;
+
 /// The power columns of a request grouped by base (`Light`, `Light^2`, …):
 /// `(base values, [(design column, exponent)])`, design columns counted
 /// after the intercept. A repeated exponent of one base is left as a plain
 /// column (it is then aliased).
-pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], Vec<(usize, u32)>)> {
+pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], PowerColumns)> {
     let off = usize::from(req.intercept);
     let n = req.rows();
-    let mut groups: Vec<(String, &[f64], Vec<(usize, u32)>)> = Vec::new();
+    let mut groups: Vec<(String, &[f64], PowerColumns)> = Vec::new();
     for (j, c) in req.columns.iter().enumerate() {
         let Some(pw) = &c.power else { continue };
         if pw.base_values.len() != n || pw.exponent == 0 {

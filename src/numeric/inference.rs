@@ -247,7 +247,7 @@ fn positive_quantile(p: f64, cdf: impl Fn(f64) -> f64, sf: impl Fn(f64) -> f64) 
 /// degrees of freedom (see [`positive_quantile`] for the method); NaN for
 /// invalid arguments.
 pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
-    if !(d1 > 0.0 && d1.is_finite()) || !(d2 > 0.0 && d2.is_finite()) {
+    if !(d1 > 0.0 && d1.is_finite() && d2 > 0.0 && d2.is_finite()) {
         return f64::NAN;
     }
     positive_quantile(p, |x| f_cdf(x, d1, d2), |x| f_sf(x, d1, d2))
