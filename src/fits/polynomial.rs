@@ -144,6 +144,14 @@ mod tests {
     }
 
     #[test]
+    fn a_column_without_power_reads_from_older_json() {
+        // Protocol version 1 JSON written before `power` existed still reads.
+        let c: Column = serde_json::from_str(r#"{"name":"Light","term":"Light","values":[1.0,2.0]}"#).expect("valid JSON");
+        assert_eq!(c.power, None);
+        assert!(!serde_json::to_string(&c).expect("serialises").contains("power"));
+    }
+
+    #[test]
     fn bad_degree_and_too_few_rows_are_errors() {
         let x = [1.0, 2.0, 3.0];
         let y = [1.0, 4.0, 9.0];

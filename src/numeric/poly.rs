@@ -264,4 +264,36 @@ mod tests {
         assert_eq!(fit.coefficients, vec![3.0, -2.0, 0.5]);
         assert_eq!(fit.rank, 3);
     }
+
+    #[test]
+    fn weight_two_equals_a_duplicated_row_with_powers() {
+        // A weight of 2 is the same as the row given twice (common practice:
+        // the definition of weighted least squares), here for a cubic in a
+        // centred basis; invented data (light hours → yield).
+        let x: Vec<f64> = (0..15).map(|i| 5.5 + 0.7 * i as f64).collect();
+        let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 1.0 + 0.3 * v - 0.02 * v * v + 0.001 * v * v * v + 0.05 * ((i * 7 % 5) as f64 - 2.0)).collect();
+        let design = |x: &[f64]| -> Vec<f64> {
+            let mut d = vec![1.0; x.len()];
+            for e in 1..=3 {
+                d.extend(x.iter().map(|v| v.powi(e)));
+            }
+            d
+        };
+        let cols: [(usize, u32); 3] = [(1, 1), (2, 2), (3, 3)];
+        let w: Vec<f64> = (0..15).map(|i| if i == 4 { 2.0 } else { 1.0 }).collect();
+        let dx = design(&x);
+        let prob = LsProblem { x: &dx, n: 15, p: 4, y: &y, weights: Some(&w), has_intercept: true };
+        let wfit = least_squares_powers(&prob, &[PowerGroup { base: &x, columns: &cols }], Some(0)).expect("well posed");
+        let mut x2 = x.clone();
+        let mut y2 = y.clone();
+        x2.push(x[4]);
+        y2.push(y[4]);
+        let dx2 = design(&x2);
+        let prob2 = LsProblem { x: &dx2, n: 16, p: 4, y: &y2, weights: None, has_intercept: true };
+        let dfit = least_squares_powers(&prob2, &[PowerGroup { base: &x2, columns: &cols }], Some(0)).expect("well posed");
+        for (a, b) in wfit.coefficients.iter().zip(&dfit.coefficients) {
+            assert!(((a - b) / b).abs() < 1e-13, "{a} vs {b}");
+        }
+        assert!(((wfit.sse - dfit.sse) / dfit.sse).abs() < 1e-13);
+    }
 }
