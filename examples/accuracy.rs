@@ -4,7 +4,7 @@
 //! ../shared/reference/nist-strd/README.md) per quantity as a Markdown table.
 //!
 //! ```text
-//! PLUMB_REFERENCE_DATA=../shared/reference cargo run --release --example accuracy
+//! PLUMB_REFERENCE_DATA=../shared/reference cargo run --example accuracy
 //! ```
 //!
 //! The same measurements are asserted (LRE ≥ 13) by `tests/nist_linear.rs`;

@@ -32,7 +32,9 @@
 //! Rank is decided in the working basis (see `docs/accuracy.md`). When a
 //! centred base's aliased powers are not all its highest ones, or the
 //! intercept itself is aliased, the centred spans no longer match and the
-//! fit is redone without centring.
+//! fit is redone without centring. The multipliers of `LsFit::alias_of`
+//! are those of the working basis (the kept terms they name are the same).
+//! `LsFit::condition_number` is that of the working basis.
 
 use super::dd::Dd;
 use super::lsq::{core, mat_vec, Basis};
