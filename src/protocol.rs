@@ -129,6 +129,25 @@ pub struct Column {
     pub term: String,
     /// One value per row used, all finite.
     pub values: Vec<f64>,
+    /// When the column is a whole power of one base column (`Light^2`, or
+    /// `Light` itself beside `Light^2`): which base, which power, and the
+    /// base's values, so a fit can form the powers itself in a better
+    /// conditioned basis. `values` still holds the power, so a fit that
+    /// ignores this field is correct (if less accurate). Optional in the
+    /// JSON (absent means "not a power"), so protocol version 1 is unchanged.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub power: Option<PowerOf>,
+}
+
+/// "Power `exponent` of the base column `base`" (see [`Column::power`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PowerOf {
+    /// The base column's label as typed (`Light`).
+    pub base: String,
+    /// The power, at least 1.
+    pub exponent: u32,
+    /// The base column's values, one per row used.
+    pub base_values: Vec<f64>,
 }
 
 /// A fully resolved request: numbers only, never cell addresses.

@@ -64,6 +64,35 @@ impl Default for Linear {
     }
 }
 
+/// `(design column, exponent)` of the powers of one base.
+pub(crate) type PowerColumns = Vec<(usize, u32)>;
+
+/// The power columns of a request grouped by base (`Light`, `Light^2`, …):
+/// `(base values, [(design column, exponent)])`, design columns counted
+/// after the intercept. A repeated exponent of one base is left as a plain
+/// column (it is then aliased).
+pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], PowerColumns)> {
+    let off = usize::from(req.intercept);
+    let n = req.rows();
+    let mut groups: Vec<(String, &[f64], PowerColumns)> = Vec::new();
+    for (j, c) in req.columns.iter().enumerate() {
+        let Some(pw) = &c.power else { continue };
+        if pw.base_values.len() != n || pw.exponent == 0 {
+            continue;
+        }
+        let key = pw.base.to_lowercase();
+        match groups.iter_mut().find(|g| g.0 == key) {
+            Some(g) => {
+                if !g.2.iter().any(|e| e.1 == pw.exponent) {
+                    g.2.push((j + off, pw.exponent));
+                }
+            }
+            None => groups.push((key, &pw.base_values, vec![(j + off, pw.exponent)])),
+        }
+    }
+    groups.into_iter().map(|g| (g.1, g.2)).collect()
+}
+
 fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic { key: key.into(), label: label.into(), group: group.into(), value }
 }
@@ -101,7 +130,13 @@ impl Fit for Linear {
             weights: req.weights.as_deref(),
             has_intercept: req.intercept,
         };
-        let fit = numeric::least_squares(&problem).map_err(|e| FitError::new(e.to_string()))?;
+        let fit = {
+            let groups = power_groups(req);
+            let groups: Vec<numeric::PowerGroup> =
+                groups.iter().map(|(base, cols)| numeric::PowerGroup { base, columns: cols }).collect();
+            numeric::least_squares_powers(&problem, &groups, req.intercept.then_some(0))
+        }
+        .map_err(|e| FitError::new(e.to_string()))?;
         let mut out = FitOutcome::default();
         let table = numeric::coefficient_table(&fit, req.level);
         for (j, row) in table.iter().enumerate() {
@@ -146,6 +181,9 @@ impl Fit for Linear {
             stat("ss_resid", "Sum of squares, residual", a, fit.sse),
             stat("ms_resid", "Mean square, residual", a, fit.sse / fit.df_resid),
             stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
+            stat("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
+            stat("anova_f", "F (mean square regression / mean square residual)", a, fit.f_statistic),
+            stat("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());

@@ -240,6 +240,108 @@ pub fn t_quantile(p: f64, df: f64) -> f64 {
     sign * t
 }
 
+/// Lower tail `P(F ≤ x)` of the F distribution: `I_z(d1/2, d2/2)` with
+/// `z = d1·x/(d1·x + d2)` (Abramowitz & Stegun 26.6.2), formed directly so
+/// small lower tails keep their relative accuracy.
+pub fn f_cdf(x: f64, d1: f64, d2: f64) -> f64 {
+    if x.is_nan() || !(d1 > 0.0 && d1.is_finite()) || !(d2 > 0.0 && d2.is_finite()) {
+        return f64::NAN;
+    }
+    if x <= 0.0 {
+        return 0.0;
+    }
+    if x.is_infinite() {
+        return 1.0;
+    }
+    beta_reg(0.5 * d1, 0.5 * d2, d1 * x / (d1 * x + d2))
+}
+
+/// Lower tail `P(X ≤ x)` of chi-squared with `k` degrees of freedom: the
+/// regularised lower incomplete gamma function `P(k/2, x/2)` (A&S 26.4.19;
+/// statrs `ChiSquared::cdf`).
+pub fn chi2_cdf(x: f64, k: f64) -> f64 {
+    if x.is_nan() || !(k > 0.0 && k.is_finite()) {
+        return f64::NAN;
+    }
+    if x <= 0.0 {
+        return 0.0;
+    }
+    ChiSquared::new(k).map(|d| d.cdf(x)).unwrap_or(f64::NAN)
+}
+
+/// The point `x ≥ 0` with `P(X ≤ x) = p` for a distribution on `[0, ∞)`,
+/// found by bisection on the tail that is the smaller one at the answer:
+/// `cdf(x) = p` when `p ≤ ½`, `sf(x) = 1 − p` otherwise, so neither side
+/// is evaluated through a cancelled `1 − …`. The bracket is doubled from
+/// `[0, 1]` until it holds the answer, then halved (geometrically while the
+/// ends differ by more than a factor of two) until the ends are adjacent
+/// doubles: the result is as accurate as the tail functions.
+fn positive_quantile(p: f64, cdf: impl Fn(f64) -> f64, sf: impl Fn(f64) -> f64) -> f64 {
+    if p.is_nan() || !(0.0..=1.0).contains(&p) {
+        return f64::NAN;
+    }
+    if p == 0.0 {
+        return 0.0;
+    }
+    if p == 1.0 {
+        return f64::INFINITY;
+    }
+    let q = 1.0 - p;
+    let below = |x: f64| if p <= 0.5 { cdf(x) < p } else { sf(x) > q };
+    if below(0.0) && cdf(0.0).is_nan() {
+        return f64::NAN;
+    }
+    let (mut lo, mut hi) = (0.0f64, 1.0f64);
+    while below(hi) {
+        lo = hi;
+        hi *= 2.0;
+        if hi > 1e300 {
+            return f64::INFINITY;
+        }
+    }
+    for _ in 0..3000 {
+        let mid = if lo == 0.0 {
+            hi / 16.0
+        } else if hi > 2.0 * lo {
+            (lo * hi).sqrt()
+        } else {
+            0.5 * (lo + hi)
+        };
+        if mid <= lo || mid >= hi || mid == 0.0 {
+            break;
+        }
+        if below(mid) {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    if lo == 0.0 {
+        hi
+    } else {
+        0.5 * (lo + hi)
+    }
+}
+
+/// Quantile `x` with `P(F ≤ x) = p` of the F distribution on (`d1`, `d2`)
+/// degrees of freedom (see [`positive_quantile`] for the method); NaN for
+/// invalid arguments.
+pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
+    if !(d1 > 0.0 && d1.is_finite() && d2 > 0.0 && d2.is_finite()) {
+        return f64::NAN;
+    }
+    positive_quantile(p, |x| f_cdf(x, d1, d2), |x| f_sf(x, d1, d2))
+}
+
+/// Quantile `x` with `P(X ≤ x) = p` of chi-squared with `k` degrees of
+/// freedom (see [`positive_quantile`]); NaN for invalid arguments.
+pub fn chi2_quantile(p: f64, k: f64) -> f64 {
+    if !(k > 0.0 && k.is_finite()) {
+        return f64::NAN;
+    }
+    positive_quantile(p, |x| chi2_cdf(x, k), |x| chi2_sf(x, k))
+}
+
 /// One row of a coefficient table.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CoefficientRow {
