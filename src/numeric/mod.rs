@@ -11,9 +11,12 @@
 //!
 //! Submodules: [`dd`] (double-double arithmetic), [`qr`] (pivoted Householder
 //! QR), [`lsq`] (the least squares driver and refinement), [`inference`]
-//! (distributions and tests built on statrs).
+//! (distributions and tests built on statrs), [`diagnostics`] (residual
+//! checks, collinearity, influence and heteroscedasticity-consistent
+//! standard errors on a finished fit).
 
 pub mod dd;
+pub mod diagnostics;
 pub mod inference;
 pub mod lsq;
 pub mod qr;
