@@ -240,7 +240,7 @@ pub fn variance_inflation(fit: &LsFit, x: &[f64], skip: Option<usize>) -> Vec<f6
     let s2 = fit.sigma * fit.sigma;
     (0..p)
         .map(|j| {
-            if Some(j) == skip || fit.aliased[j] || !(s2 > 0.0) || x.len() < (j + 1) * n {
+            if Some(j) == skip || fit.aliased[j] || s2.is_nan() || s2 <= 0.0 || x.len() < (j + 1) * n {
                 return f64::NAN;
             }
             let c = fit.covariance[j * p + j] / s2;

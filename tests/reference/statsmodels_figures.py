@@ -20,7 +20,9 @@ As a check on the references themselves, the script also solves both problems
 in exact rational arithmetic (Python fractions: the data are exact decimals)
 and records, per figure, the largest relative difference between statsmodels
 and the exact value ("exact_check"), for the figures that are rational
-functions of the data (leverage, Cook's distance, VIF, HC covariances).
+functions of the data (leverage, Cook's distance, VIF, HC covariances); the
+exact values themselves, rounded to double (standard errors: the double
+square root of the exact variance), are in "exact_rational".
 """
 
 import csv
@@ -149,7 +151,38 @@ def figures(name, file, response, terms):
             rel(a * a, b) for a, b in zip(se, ex["hc_variance"][kind])
         ) / 2
     out["exact_check"] = check
+    out["exact_rational"] = {
+        "leverage": [float(v) for v in ex["leverage"]],
+        "cooks_distance": [float(v) for v in ex["cooks_distance"]],
+        "vif": [float(v) for v in ex["vif"]],
+        **{f"std_errors_{k.lower()}": [float(v) ** 0.5 for v in ex["hc_variance"][k]] for k in ("HC0", "HC1", "HC2", "HC3")},
+    }
     return name, out
+
+
+def weighted_figures():
+    """Stack loss by weighted least squares, weights WATERTEMP/20 (an
+    arbitrary positive column): statsmodels WLS, whose robust covariances
+    and residual checks work on the weighted design and residuals."""
+    header, rows = read("stackloss.csv")
+    col = {h: i for i, h in enumerate(header)}
+    terms = ["AIRFLOW", "WATERTEMP", "ACIDCONC"]
+    y = np.array([float(r[col["STACKLOSS"]]) for r in rows])
+    X = sm.add_constant(np.array([[float(r[col[t]]) for t in terms] for r in rows]))
+    w = np.array([float(r[col["WATERTEMP"]]) for r in rows]) / 20.0
+    res = sm.WLS(y, X, weights=w).fit()
+    jb, jb_p, skew, kurt = jarque_bera(res.wresid)
+    out = {
+        "model": "STACKLOSS ~ AIRFLOW + WATERTEMP + ACIDCONC, weights WATERTEMP/20 (with intercept, WLS)",
+        "coefficients": res.params.tolist(),
+        "std_errors_classic": res.bse.tolist(),
+        "durbin_watson_weighted_residuals": float(durbin_watson(res.wresid)),
+        "jarque_bera_weighted_residuals": [float(jb), float(jb_p)],
+    }
+    for kind in ("HC0", "HC1", "HC2", "HC3"):
+        r = sm.WLS(y, X, weights=w).fit(cov_type=kind)
+        out[f"std_errors_{kind.lower()}"] = r.bse.tolist()
+    return out
 
 
 def main():
@@ -166,6 +199,7 @@ def main():
     ]:
         k, v = figures(name, file, response, terms)
         result[k] = v
+    result["stackloss_weighted"] = weighted_figures()
     json.dump(result, sys.stdout, indent=1)
     sys.stdout.write("\n")
 
