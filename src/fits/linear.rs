@@ -307,3 +307,87 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], vif: &[f64], coo
         ));
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::protocol::{Column, PROTOCOL_VERSION};
+    use std::collections::BTreeMap;
+
+    fn col(name: &str, values: Vec<f64>) -> Column {
+        Column { name: name.into(), term: name.into(), values }
+    }
+
+    fn request(y: Vec<f64>, cols: Vec<Column>, intercept: bool, weights: Option<Vec<f64>>, errors: &str) -> FitRequest {
+        let mut options = BTreeMap::new();
+        options.insert("errors".to_string(), OptionValue::Text(errors.into()));
+        FitRequest {
+            protocol: PROTOCOL_VERSION,
+            function: "linear".into(),
+            response: col("y", y),
+            columns: cols,
+            intercept,
+            weights,
+            level: 0.95,
+            options,
+        }
+    }
+
+    #[test]
+    fn robust_errors_with_weights_an_aliased_term_and_no_intercept() {
+        let x: Vec<f64> = (0..10).map(|i| i as f64).collect();
+        let twice: Vec<f64> = x.iter().map(|v| 2.0 * v).collect();
+        let z: Vec<f64> = (0..10).map(|i| ((i * 7) % 5) as f64).collect();
+        let y: Vec<f64> = (0..10).map(|i| 1.0 + 0.5 * i as f64 + ((i * 3) % 4) as f64 * 0.3).collect();
+        let w: Vec<f64> = (0..10).map(|i| 1.0 + (i % 3) as f64).collect();
+        let req = request(y, vec![col("x", x), col("twice", twice), col("z", z)], false, Some(w), "hc3");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        assert_eq!(out.standard_errors.as_deref(), Some("HC3"));
+        let aliased = &out.coefficients[1];
+        assert!(aliased.estimate.is_none() && aliased.std_error.is_none() && aliased.vif.is_none());
+        for c in [&out.coefficients[0], &out.coefficients[2]] {
+            assert!(c.std_error.is_some_and(|v| v > 0.0) && c.vif.is_some_and(|v| v >= 1.0), "{c:?}");
+        }
+        assert!(out.notes.iter().any(|n| n.contains("HC3")));
+    }
+
+    #[test]
+    fn an_exact_fit_gives_blank_checks_and_no_false_warnings() {
+        let x: Vec<f64> = (0..8).map(|i| i as f64).collect();
+        let y: Vec<f64> = x.iter().map(|v| 1.0 + 2.0 * v).collect();
+        let req = request(y, vec![col("x", x)], true, None, "hc1");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        // Every residual is zero: Durbin–Watson and Jarque–Bera are 0/0.
+        assert!(out.statistic("durbin_watson").is_some_and(f64::is_nan));
+        assert!(out.statistic("jarque_bera").is_some_and(f64::is_nan));
+        assert!(out.row_warnings.is_empty());
+        assert!(out.warnings.iter().all(|w| !w.contains("correlated") && !w.contains("spread")), "{:?}", out.warnings);
+    }
+
+    #[test]
+    fn as_many_rows_as_parameters_does_not_fail() {
+        let req = request(vec![1.0, 3.0], vec![col("x", vec![0.0, 1.0])], true, None, "hc2");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+    }
+
+    #[test]
+    fn an_influential_row_is_named_by_index() {
+        // Ten points on a line with small scatter, and one far out of line at
+        // a far x: its Cook's distance is far above 0.5 (constructed; the
+        // threshold is common practice).
+        let mut x: Vec<f64> = (0..10).map(|i| i as f64).collect();
+        let mut y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + if i % 3 == 0 { 0.2 } else { -0.1 }).collect();
+        x.push(30.0);
+        y.push(20.0);
+        let req = request(y, vec![col("x", x)], true, None, "classic");
+        let out = Linear::new().fit(&req).expect("fits");
+        assert_eq!(out.row_warnings.len(), 1, "{:?}", out.row_warnings);
+        assert_eq!(out.row_warnings[0].row, 10);
+        assert!(out.row_warnings[0].text.starts_with("{row} has a large influence"));
+        assert_eq!(out.statistic_rows.get("max_cooks_distance"), Some(&10));
+        assert_eq!(out.statistic_rows.get("max_leverage"), Some(&10));
+    }
+}
