@@ -213,9 +213,13 @@ pub const STUDENTIZED_FLAG: f64 = 3.0;
 
 /// Shortest figure for a warning: four significant digits.
 fn short(x: f64) -> String {
-    if x != 0.0 && (x.abs() >= 1e5 || x.abs() < 1e-3) {
+    if !x.is_finite() || x == 0.0 {
+        return format!("{x}");
+    }
+    if x.abs() >= 1e5 || x.abs() < 1e-3 {
         format!("{x:.3e}")
     } else {
+        // |x| in [1e-3, 1e5): the exponent is in -3..=4.
         let digits = (3 - x.abs().log10().floor() as i32).clamp(0, 6) as usize;
         format!("{x:.digits$}")
     }
@@ -364,6 +368,30 @@ mod tests {
         assert!(out.statistic("jarque_bera").is_some_and(f64::is_nan));
         assert!(out.row_warnings.is_empty());
         assert!(out.warnings.iter().all(|w| !w.contains("correlated") && !w.contains("spread")), "{:?}", out.warnings);
+    }
+
+    #[test]
+    fn short_figures() {
+        // Four significant digits (our display rule).
+        assert_eq!(short(1.485131), "1.485");
+        assert_eq!(short(149.53), "149.5");
+        assert_eq!(short(0.012345), "0.01235");
+        assert_eq!(short(0.0), "0");
+        assert_eq!(short(2.5e-7), "2.500e-7");
+    }
+
+    #[test]
+    fn constant_residuals_in_row_order_do_not_fail() {
+        // A constant y fitted through the origin on x: the residuals
+        // 1 − b·x fall in a straight line, so neighbouring rows are alike
+        // and Durbin–Watson is small (direct consequence of its formula).
+        let x: Vec<f64> = (1..9).map(|i| i as f64).collect();
+        let y: Vec<f64> = vec![1.0; 8];
+        let req = request(y, vec![col("x", x)], false, None, "hc0");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        assert!(out.statistic("durbin_watson").is_some_and(|d| d < 1.5));
+        assert!(out.warnings.iter().any(|w| w.contains("correlated in row order")), "{:?}", out.warnings);
     }
 
     #[test]
