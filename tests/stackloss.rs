@@ -87,5 +87,27 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     let msg = fits.iter().find(|r| output::text(&r[0]) == Some("stack")).and_then(|r| r.get(8)).and_then(output::text).unwrap_or("").to_string();
     assert!(msg.contains("correlated in row order") && msg.contains("1.485"), "{msg}");
     assert!(msg.contains("row 22 of Plant has a large influence"), "{msg}");
+    // Influence: the largest leverage (data row 17), Cook's distance and
+    // studentized residual (both data row 21) with their sheet rows (the
+    // header is sheet row 1), statsmodels 0.15.0 OLSInfluence values from
+    // tests/data/statsmodels_figures.json; and one row above each rule of
+    // thumb (2p/n, 4/n, |t| > 3; counted from the same file's figures).
+    let diag = output::table(&out, "Diagnostics");
+    let row_of = |label: &str| {
+        let r = diag.iter().find(|r| r.first().and_then(output::text) == Some(label)).unwrap_or_else(|| panic!("no {label}"));
+        (output::num(&r[1]).unwrap(), r.get(2).and_then(output::text).unwrap_or("").to_string())
+    };
+    let (lev, at) = row_of("Largest leverage");
+    close(lev, 0.41212349785785984, "largest leverage");
+    assert_eq!(at, "row 18 of Plant");
+    let (cook, at) = row_of("Largest Cook's distance");
+    close(cook, 0.6919999163395193, "largest Cook's distance");
+    assert_eq!(at, "row 22 of Plant");
+    let (t, at) = row_of("Largest studentized residual (by size)");
+    close(t, -3.330493319328064, "largest studentized residual");
+    assert_eq!(at, "row 22 of Plant");
+    for label in ["Rows with leverage above 2p/n", "Rows with Cook's distance above 4/n", "Rows with |studentized residual| above 3"] {
+        assert_eq!(stat(label), 1.0, "{label}");
+    }
     let _ = std::fs::remove_dir_all(&dir);
 }
