@@ -12,9 +12,12 @@
 //! Submodules: [`dd`] (double-double arithmetic), [`qr`] (pivoted Householder
 //! QR), [`lsq`] (the least squares driver and refinement), [`poly`]
 //! (power columns fitted in a centred, scaled basis), [`inference`]
-//! (distributions and tests built on statrs).
+//! (distributions and tests built on statrs), [`diagnostics`] (residual
+//! checks, collinearity, influence and heteroscedasticity-consistent
+//! standard errors on a finished fit).
 
 pub mod dd;
+pub mod diagnostics;
 pub mod inference;
 pub mod lsq;
 pub mod poly;
