@@ -220,7 +220,13 @@ impl Fit for Linear {
         let cooks = numeric::cooks_distance(&fit);
         let external = diag::studentized_residuals_external(&fit);
         let dffits = diag::dffits(&fit, &external);
-        diagnose(&fit, &x, &labels, &vif, &cooks, &external, &mut out);
+        // Columns that are powers of a base with two or more powers in the model.
+        let mut structural = vec![false; usize::from(req.intercept)];
+        for c in &req.columns {
+            let shared = c.power.as_ref().is_some_and(|pw| req.columns.iter().filter(|o| o.power.as_ref().is_some_and(|q| q.base == pw.base)).count() > 1);
+            structural.push(shared);
+        }
+        diagnose(&fit, &x, &labels, &structural, &vif, &cooks, &external, &mut out);
         out.rows = vec![
             RowColumn { key: "fitted".into(), label: "Fitted".into(), values: fit.fitted.clone() },
             RowColumn { key: "residual".into(), label: "Residual".into(), values: fit.residuals.clone() },
@@ -265,7 +271,11 @@ fn short(x: f64) -> String {
 
 /// The residual checks, collinearity and influence statistics of a fit, and
 /// the plain-language warnings they call for.
-fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], vif: &[f64], cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
+/// `structural[j]` marks a column that is a power of a base column which
+/// also appears in another power (`Light`, `Light^2`): such columns are
+/// collinear by construction, so their VIF is reported but not warned about.
+#[allow(clippy::too_many_arguments)]
+fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bool], vif: &[f64], cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
     let n = fit.n;
     let p = fit.coefficients.len();
     let nf = n as f64;
@@ -341,7 +351,15 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], vif: &[f64], coo
     if big.len() > 3 {
         out.warnings.push(format!("{} more rows have Cook's distance above {COOK_WARN}", big.len() - 3));
     }
-    let collinear: Vec<String> = vif.iter().enumerate().filter(|(_, v)| v.is_finite() && **v > VIF_WARN).map(|(j, v)| format!("{} ({})", labels[j], short(*v))).collect();
+    let collinear: Vec<String> = vif
+        .iter()
+        .enumerate()
+        .filter(|(j, v)| v.is_finite() && **v > VIF_WARN && !structural.get(*j).copied().unwrap_or(false))
+        .map(|(j, v)| format!("{} ({})", labels[j], short(*v)))
+        .collect();
+    if structural.iter().any(|s| *s) {
+        out.notes.push("powers of one column are collinear by construction, so their variance inflation factors are high without harm; they draw no warning".into());
+    }
     if !collinear.is_empty() {
         out.warnings.push(format!(
             "terms nearly collinear: variance inflation factor above {VIF_WARN} for {}; their estimates are unstable and hard to tell apart",
