@@ -10,7 +10,9 @@
 //! source grid row by row.
 
 use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Grid, Value, Workbook};
+use crate::host::HostOutcome;
 use crate::protocol::FitOutcome;
+use crate::recipe::Recipe;
 use std::collections::{BTreeMap, HashSet};
 
 /// How a cell looks.
@@ -263,6 +265,11 @@ pub struct Report {
     pub outcome: Option<FitOutcome>,
     /// Where per-row results go.
     pub place: Option<RowsPlace>,
+    /// How the fit's model columns are made from its inputs (for the
+    /// prediction calculator and charts), when known.
+    pub recipe: Option<Recipe>,
+    /// The tables of a host function (`#predict`, `#compare`).
+    pub host: Option<HostOutcome>,
 }
 
 /// Facts about the run for the About sheet.

@@ -216,6 +216,12 @@ pub struct FitOutcome {
     pub warnings: Vec<String>,
     /// Which R² the fit reports and similar remarks.
     pub notes: Vec<String>,
+    /// The covariance matrix of the estimates, one row per coefficient in
+    /// coefficient order (rows and columns of a coefficient without an
+    /// estimate are zero), when the fit has one: what predictions with
+    /// intervals need, with the `rmse` and `df_resid` statistics.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub covariance: Option<Vec<Vec<f64>>>,
 }
 
 impl FitOutcome {
