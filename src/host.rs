@@ -359,7 +359,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
     let level = level_arg.unwrap_or(fit.level);
     let df = stat(fit, "df_resid");
     let s = stat(fit, "rmse");
-    let t = t_quantile(1.0 - (1.0 - level) / 2.0, df);
+    let t = -t_quantile(0.5 * (1.0 - level), df);
     let max_lev = fit.outcome.as_ref().and_then(|o| o.rows.iter().find(|c| c.key == "leverage")).map(|c| c.values.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max));
     let mut xs = Vec::new();
     for (vals, label) in &points {

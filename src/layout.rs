@@ -46,6 +46,8 @@ pub enum Style {
     DateTime,
     /// A time of day.
     Time,
+    /// A cell the reader types into: shaded, bordered.
+    Input,
 }
 
 /// What a cell holds.
@@ -136,13 +138,51 @@ pub struct Sheet {
     pub freeze: Option<(u32, u32)>,
     /// A filter over a table.
     pub filter: Option<CellRange>,
+    /// Cells that offer a drop-down list of these choices.
+    pub choices: BTreeMap<(u32, u32), Vec<String>>,
+    /// Charts placed on the sheet.
+    pub charts: Vec<ChartSpec>,
+}
+
+/// A native chart of the workbook, reading cells (no writer types).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChartSpec {
+    /// Top-left cell (row, column) of the chart on its sheet.
+    pub anchor: (u32, u32),
+    /// Title.
+    pub title: String,
+    /// Label of the horizontal axis.
+    pub x_label: String,
+    /// Label of the vertical axis.
+    pub y_label: String,
+    /// The series, drawn in order.
+    pub series: Vec<SeriesSpec>,
+}
+
+/// One series of a scatter chart: x and y from one-column ranges.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SeriesSpec {
+    /// Legend name.
+    pub name: String,
+    /// Sheet holding the cells.
+    pub sheet: String,
+    /// Column of the x values.
+    pub x_col: u32,
+    /// Column of the y values.
+    pub y_col: u32,
+    /// First row (inclusive).
+    pub first_row: u32,
+    /// Last row (inclusive).
+    pub last_row: u32,
+    /// Drawn as a line without markers (else markers without a line).
+    pub line: bool,
 }
 
 impl Sheet {
-    fn new(name: &str) -> Self {
+    pub(crate) fn new(name: &str) -> Self {
         Sheet { name: name.to_string(), ..Default::default() }
     }
-    fn put(&mut self, row: u32, col: u32, cell: OutCell) {
+    pub(crate) fn put(&mut self, row: u32, col: u32, cell: OutCell) {
         self.cells.insert((row, col), cell);
     }
     /// Writes a header row and freezes it, with a filter over the table
@@ -286,7 +326,9 @@ pub struct RunInfo {
 }
 
 /// Names of the result sheets.
-pub const RESULT_SHEETS: [&str; 6] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About"];
+/// Comparisons and Charts come last in this list but are placed after
+/// Diagnostics, and only when they have content.
+pub const RESULT_SHEETS: [&str; 8] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About", "Comparisons", "Charts"];
 
 /// A result sheet name that does not clash with a source sheet: the plain
 /// name, else the name with ` (plumb)`, else with a number.
@@ -302,12 +344,21 @@ fn unique_name(base: &str, taken: &HashSet<String>) -> String {
     (2..).map(|i| format!("{base} {i}")).find(|n| free(n)).unwrap_or_else(|| base.to_string())
 }
 
-fn link_to(sheet: &str, row: u32, col: u32) -> String {
+pub(crate) fn link_to(sheet: &str, row: u32, col: u32) -> String {
     format!("{}!{}", quote_sheet_name(sheet), CellAddress::new(sheet, row, col).local())
 }
 
 /// The one line shown in place of a request cell.
 pub fn outcome_line(r: &Report) -> String {
+    if let (Some(h), false) = (&r.host, r.status == Status::Error) {
+        let warn = if r.status == Status::Warning { "; outside the data, see Fits" } else { "" };
+        return match h {
+            crate::host::HostOutcome::Prediction(p) => format!("predictions from {} for {} point{}{warn} → Intervals", p.fit, p.rows.len(), if p.rows.len() == 1 { "" } else { "s" }),
+            crate::host::HostOutcome::Comparison(c) => {
+                format!("comparison of {} fits of {}; lowest AIC: {} → Comparisons", c.fits.len(), c.response, c.fits.get(c.lowest_aic).map(|f| f.name.as_str()).unwrap_or(""))
+            }
+        };
+    }
     match (&r.status, &r.outcome) {
         (Status::Error, _) | (_, None) => {
             format!("{} — error: {}", r.text.trim(), r.messages.first().map(String::as_str).unwrap_or("the request failed"))
@@ -329,6 +380,7 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     let taken: HashSet<String> = book.sheets.iter().map(|g| g.name.to_lowercase()).collect();
     let names: Vec<String> = RESULT_SHEETS.iter().map(|n| unique_name(n, &taken)).collect();
     let (fits_n, coef_n, int_n, diag_n, guide_n, about_n) = (&names[0], &names[1], &names[2], &names[3], &names[4], &names[5]);
+    let (cmp_n, charts_n) = (&names[6], &names[7]);
 
     // Coefficients first: other sheets link to its rows.
     let mut coef = Sheet::new(coef_n);
@@ -365,6 +417,14 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     }
     coef.close_table(0, 6);
     ints.close_table(0, 6);
+    let mut host_links = crate::tables::intervals_extras(&mut ints, irow, reports);
+    let (comparisons, cmp_links) = crate::tables::comparisons_sheet(cmp_n, reports);
+    for (l, c) in host_links.iter_mut().zip(cmp_links) {
+        if l.is_none() {
+            *l = c;
+        }
+    }
+    let charts = crate::tables::charts_sheet(charts_n, reports);
 
     // Fits.
     let mut fits = Sheet::new(fits_n);
@@ -442,9 +502,10 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     let mut claimed: Vec<Vec<(u32, u32, u32)>> = vec![Vec::new(); book.sheets.len()]; // (col, first_row, last_row)
     for (i, r) in reports.iter().enumerate() {
         let Some(si) = book.sheets.iter().position(|g| g.name == r.cell.sheet) else { continue };
-        let target = match first_coef_row[i] {
-            Some(cr) => link_to(coef_n, cr, 0),
-            None => link_to(fits_n, i as u32 + 1, 0),
+        let target = match (first_coef_row[i], &host_links[i]) {
+            (Some(cr), _) => link_to(coef_n, cr, 0),
+            (None, Some(l)) if r.status != Status::Error => l.clone(),
+            _ => link_to(fits_n, i as u32 + 1, 0),
         };
         let style = match r.status {
             Status::Ok => Style::Good,
@@ -453,6 +514,16 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
         };
         let mut cell = OutCell::text(outcome_line(r), style).link(target);
         cell.note = Some(format!("plumb request: {}", r.text.trim()));
+        if let (Some(crate::host::HostOutcome::Prediction(p)), false) = (&r.host, r.status == Status::Error) {
+            if let [pr] = p.rows.as_slice() {
+                // One point: the request cell holds the predicted value itself, a number other cells can use.
+                cell = OutCell::number(pr.predicted, if r.status == Status::Ok { Style::Number } else { Style::Warning });
+                cell.note = Some(format!(
+                    "plumb request: {}\nPredicted {} from the fit {}: {}; mean at level {}: {} to {}; a new observation: {} to {}. Details on {int_n}.",
+                    r.text.trim(), r.response, p.fit, pr.predicted, p.level, pr.mean_lower, pr.mean_upper, pr.new_lower, pr.new_upper
+                ));
+            }
+        }
         overlays[si].cells.insert((r.cell.row, r.cell.col), cell);
     }
     for r in reports {
@@ -507,7 +578,11 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
         about.put(row, 2, OutCell::text(r.status.as_str(), Style::Plain));
     }
 
-    Book { overlays, sheets: vec![fits, coef, ints, diag, guide, about], keep_formulas: true }
+    let mut sheets = vec![fits, coef, ints, diag];
+    sheets.extend(comparisons);
+    sheets.extend(charts);
+    sheets.extend([guide, about]);
+    Book { overlays, sheets, keep_formulas: true }
 }
 
 /// The first run of `width` columns at or right of `start` that are free in

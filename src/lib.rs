@@ -24,4 +24,5 @@ pub mod read;
 pub mod recipe;
 pub mod resolve;
 pub mod syntax;
+pub mod tables;
 pub mod write;

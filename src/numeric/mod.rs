@@ -22,7 +22,7 @@ pub mod qr;
 mod tests;
 
 pub use inference::{
-    chi2_sf, coefficient_table, cooks_distance, f_sf, standardized_residuals, t_quantile, t_sf,
+    chi2_sf, coefficient_table, cooks_distance, f_sf, normal_plot_positions, standardized_residuals, t_quantile, t_sf,
     CoefficientRow,
 };
 pub use lsq::{least_squares, CovarianceMethod, Refinement, RANK_TOLERANCE};
