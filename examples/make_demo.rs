@@ -126,7 +126,7 @@ const NOTES: [&str; 9] = [
     "A few readings are blank: the sensor was offline that week. plumb leaves such rows out of a fit and says how many.",
     "The requests in column N of the Weekly sheet are what plumb answers. Edit them, or type new ones into any empty cell.",
     "The fifth request has a typo on purpose (Ligth), to show how plumb reports an error and suggests the closest column name.",
-    "#predict uses a named fit at new values (or the table on the Plan sheet); #compare sets fits of Yield side by side.",
+    "The last requests show predictions from a named fit (at typed values, or for each row of the Plan sheet) and a comparison of fits of Yield.",
     "Run: plumb run greenhouse.xlsx",
 ];
 
