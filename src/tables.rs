@@ -325,7 +325,7 @@ pub fn charts_sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
         let last_q = 1 + pick_q.len().max(1) as u32;
 
         let top = block * BLOCK_ROWS;
-        let sub = if pick.len() < n { format!(" (every {}th of {n} rows plotted)", n.div_ceil(CHART_POINTS)) } else { String::new() };
+        let sub = if pick.len() < n { format!(" (one row in {} of {n} plotted)", n.div_ceil(CHART_POINTS)) } else { String::new() };
         s.put(top, 0, OutCell::text(format!("{} — {}{sub}", r.name, r.text.trim()), Style::Title));
         let series = |name: &str, xc: u32, yc: u32, last_row: u32, line: bool| SeriesSpec {
             name: name.into(),
@@ -425,5 +425,68 @@ pub fn comparisons_sheet(name: &str, reports: &[Report]) -> (Option<Sheet>, Vec<
         (None, links)
     } else {
         (Some(s), links)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::cells::CellAddress;
+    use crate::layout::Status;
+    use crate::protocol::{FitOutcome, RowColumn};
+
+    fn report(n: usize) -> Report {
+        let fitted: Vec<f64> = (0..n).map(|i| i as f64).collect();
+        let resid: Vec<f64> = (0..n).map(|i| ((i * 7919) % 13) as f64 - 6.0).collect();
+        let col = |key: &str, values: Vec<f64>| RowColumn { key: key.into(), label: key.into(), values };
+        Report {
+            name: "big".into(),
+            function: "linear".into(),
+            cell: CellAddress::new("Data", 0, 5),
+            text: "#linear(y, a + b)".into(),
+            response: "y".into(),
+            terms: vec!["a".into(), "b".into()],
+            level: 0.95,
+            rows_used: n,
+            rows_left_out: 0,
+            status: Status::Ok,
+            messages: Vec::new(),
+            outcome: Some(FitOutcome { rows: vec![col("fitted", fitted), col("residual", resid.clone()), col("std_residual", resid)], ..Default::default() }),
+            place: None,
+            recipe: None,
+            host: None,
+        }
+    }
+
+    #[test]
+    fn large_fits_plot_every_kth_row_and_keep_the_last() {
+        // k = ⌈45 001 / 20 000⌉ = 3: rows 0, 3, …, 45 000 (common practice: arithmetic).
+        let v = chart_subset(45_001);
+        assert_eq!(v.len(), 15_001);
+        assert_eq!((v[1], *v.last().unwrap()), (3, 45_000));
+        assert_eq!(chart_subset(20_000).len(), 20_000);
+        assert_eq!(chart_subset(20_001).len(), 10_001);
+        let s = charts_sheet("Charts", &[report(45_001)]).unwrap();
+        assert_eq!(s.charts.len(), 3);
+        for c in &s.charts {
+            for ser in &c.series {
+                assert_eq!((ser.first_row, ser.last_row), (2, 2 + 15_001 - 1), "{}", c.title);
+                assert_eq!(ser.sheet, "Charts");
+            }
+        }
+        // Every charted cell holds a number; nothing below the subset.
+        let x = s.charts[1].series[0].x_col;
+        assert!(matches!(s.cells.get(&(2 + 15_000, x)).map(|c| &c.content), Some(Content::Number(_))));
+        assert!(!s.cells.contains_key(&(2 + 15_001, x)));
+        assert!(s.cells.values().any(|c| matches!(&c.content, Content::Text(t) if t.contains("one row in 3 of 45001 plotted"))));
+    }
+
+    #[test]
+    fn small_fits_plot_every_row() {
+        let s = charts_sheet("Charts", &[report(30)]).unwrap();
+        assert!(s.charts.iter().all(|c| c.series.iter().all(|ser| ser.last_row == 31)));
+        // Observed = fitted + residual, sorted by fitted.
+        let obs = s.charts[0].series[0].y_col;
+        assert_eq!(s.cells[&(2, obs)].content, Content::Number(0.0 + (0 % 13) as f64 - 6.0));
     }
 }

@@ -232,7 +232,7 @@ fn parse_range(r: &str) -> (u32, u32, u32) {
         let col = letters.bytes().fold(0u32, |acc, l| acc * 26 + u32::from(l - b'A' + 1)) - 1;
         (col, row - 1)
     };
-    let ((c, r0), (_, r1)) = (cell(a), cell(&b));
+    let ((c, r0), (_, r1)) = (cell(a), cell(b));
     (c, r0, r1)
 }
 
