@@ -9,7 +9,7 @@
 
 use crate::cells::{DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
 use crate::layout::{Book, Cached, ChartSpec, Content, OutCell, Overlay, Sheet, Style};
-use rust_xlsxwriter::{Chart, ChartFormat, ChartLine, ChartMarker, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
+use rust_xlsxwriter::{Chart, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
 use std::collections::HashMap;
 use std::fmt;
 use std::path::{Path, PathBuf};
@@ -349,7 +349,7 @@ fn chart(spec: &ChartSpec) -> Chart {
         if s.line {
             series.set_marker(ChartMarker::new().set_none()).set_format(ChartFormat::new().set_line(ChartLine::new().set_width(1.75)));
         } else {
-            series.set_marker(ChartMarker::new().set_size(4));
+            series.set_marker(ChartMarker::new().set_type(ChartMarkerType::Circle).set_size(5));
         }
     }
     chart.title().set_name(spec.title.as_str());

@@ -175,7 +175,7 @@ pub fn host_functions() -> Vec<FunctionSpec> {
             options: vec![
                 p("rows", ParamKind::Range, false, None, "a table of new values, headers in its first row, such as rows=Plan!A1:C13"),
                 p("level", ParamKind::Number, false, None, "confidence level of the intervals (default: the fit's level)"),
-                p("column", ParamKind::Column, false, None, "any column of the fit = its new value, such as Light=14 or Bay=\"North\"; a column not given takes its mean (or base level)"),
+                p("<column>", ParamKind::Column, false, None, "each column of the fit = its new value, such as Light=14 or Bay=\"North\" (every column the fit uses, unless rows= is given)"),
             ],
         },
         FunctionSpec {
