@@ -159,8 +159,8 @@ impl Ctx<'_> {
 }
 
 /// The report of a fit by name among the fits already evaluated.
-fn find_fit<'r>(ctx: &Ctx, reports: &'r [Report], name: &str, span: crate::syntax::Span) -> Result<&'r Report, Problem> {
-    let found = reports.iter().find(|r| r.name.eq_ignore_ascii_case(name.trim()) && !r.function.is_empty() && r.host.is_none());
+fn find_fit<'r>(ctx: &Ctx, reports: &[&'r Report], name: &str, span: crate::syntax::Span) -> Result<&'r Report, Problem> {
+    let found = reports.iter().copied().find(|r| r.name.eq_ignore_ascii_case(name.trim()) && !r.function.is_empty() && r.host.is_none());
     match found {
         Some(r) if r.outcome.is_some() => Ok(r),
         Some(r) => Err(ctx
@@ -222,7 +222,7 @@ fn predict_rows(r: &Report, xs: &[Vec<f64>]) -> Result<Vec<(f64, f64, f64)>, Str
 }
 
 /// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`.
-pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, reports: &[Report]) -> Result<HostResult, Problem> {
+pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
     let ctx = Ctx { cell, text };
     let mut fit_arg = None;
     let mut given: BTreeMap<String, (NewValue, crate::syntax::Span)> = BTreeMap::new();
@@ -405,7 +405,7 @@ fn norm(s: &str) -> String {
 }
 
 /// Evaluates `#compare(fit, fit, …)`.
-pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[Report]) -> Result<HostResult, Problem> {
+pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
     let ctx = Ctx { cell, text };
     let mut fits: Vec<&Report> = Vec::new();
     for a in &req.args {

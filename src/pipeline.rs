@@ -156,9 +156,10 @@ pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summar
             None => slots.push(Some(evaluate_one(book, f, registry, &request_cells, &mut names))),
         }
     }
-    let fits: Vec<Report> = slots.iter().flatten().map(|(r, _)| r.clone()).collect();
-    for (i, parsed) in deferred {
-        slots[i] = Some(evaluate_host(book, &found[i], &parsed, &fits));
+    let fits: Vec<&Report> = slots.iter().flatten().map(|(r, _)| r).collect();
+    let done: Vec<(usize, (Report, Vec<Problem>))> = deferred.iter().map(|(i, parsed)| (*i, evaluate_host(book, &found[*i], parsed, &fits))).collect();
+    for (i, d) in done {
+        slots[i] = Some(d);
     }
     let mut reports = Vec::new();
     let mut problems = Vec::new();
@@ -173,7 +174,7 @@ pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summar
 }
 
 /// Evaluates one `#predict` or `#compare` request against the fits.
-fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[Report]) -> (Report, Vec<Problem>) {
+fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[&Report]) -> (Report, Vec<Problem>) {
     let fname = parsed.function.name.to_lowercase();
     let mut report = Report {
         name: f.cell.to_string(),

@@ -75,7 +75,7 @@ pub fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
     let Some(cov) = &o.covariance else { return row };
     let p = o.coefficients.len();
     let (Some(sigma), Some(df)) = (o.statistic("rmse"), o.statistic("df_resid")) else { return row };
-    if cov.len() != p || rec.columns.len() + usize::from(rec.intercept) != p {
+    if cov.len() != p || rec.columns.len() + usize::from(rec.intercept) != p || p > CALCULATOR_MAX_TERMS || p == 0 {
         return row;
     }
     let k = rec.inputs.len() as u32;
@@ -264,6 +264,10 @@ pub fn chart_subset(n: usize) -> Vec<usize> {
     }
     v
 }
+
+/// A fit with more coefficients than this gets no calculator (its
+/// covariance matrix would fill the sheet).
+pub const CALCULATOR_MAX_TERMS: usize = 60;
 
 /// Width of one fit's chart data table on the Charts sheet, plus a gap.
 const DATA_COLS: u32 = 7;

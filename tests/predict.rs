@@ -189,6 +189,8 @@ fn compare_refuses_other_responses_and_other_rows() {
             "#compare(a, nosuch)",
             "#predict(a, AIRFLOW=60, WATERTEMP=3)",
             "#predict(a)",
+            "#predict(late, AIRFLOW=60)",
+            "#linear(STACKLOSS, AIRFLOW, name=late)",
         ],
     );
     let out = d.join("out.xlsx");
@@ -199,6 +201,9 @@ fn compare_refuses_other_responses_and_other_rows() {
     assert!(msg(3).contains("there is no fit named 'nosuch'"), "{}", msg(3));
     assert!(msg(4).contains("uses no column 'watertemp'"), "{}", msg(4));
     assert!(msg(5).contains("#predict needs the new values"), "{}", msg(5));
+    // A prediction may stand above the fit it names: host functions run after every fit.
+    assert_eq!(s.reports[6].status, Status::Ok, "{}", msg(6));
+    assert_eq!(s.reports[6].function, "predict");
     let _ = std::fs::remove_dir_all(&d);
 }
 
@@ -290,5 +295,51 @@ fn charts_read_the_cells_of_their_fits() {
     assert_eq!(ranges[2], ranges[0], "the fitted line shares the x column");
     let (hf, _) = column(&ranges[3]);
     assert_eq!(hf, "Fitted");
+    let _ = std::fs::remove_dir_all(&d);
+}
+
+#[test]
+fn predicting_at_the_data_rows_gives_the_fitted_values() {
+    // Powers, a transform, a text column and its product with a number:
+    // the recipe must rebuild the model columns exactly as the resolver did,
+    // so #predict at each data row equals that row's Fitted column (common practice: identity).
+    let d = tmp("recipe");
+    let path = d.join("mixed.xlsx");
+    let mut wb = Workbook::new();
+    wb.set_properties(&DocProperties::new().set_creation_datetime(&ExcelDateTime::from_ymd(2026, 1, 1).unwrap()));
+    let ws = wb.add_worksheet();
+    ws.set_name("Data").unwrap();
+    for (j, h) in ["y", "x", "z", "g"].iter().enumerate() {
+        ws.write_string(0, j as u16, *h).unwrap();
+    }
+    let levels = ["B", "A", "C"];
+    for i in 0..30u32 {
+        let x = f64::from(i % 7) + 0.5 * f64::from(i % 3);
+        let z = 1.0 + f64::from((i * 5) % 11);
+        let g = levels[(i % 3) as usize];
+        let y = 2.0 + 0.3 * x - 0.05 * x * x + 0.7 * z.ln() + if g == "C" { 0.4 * x } else { 0.0 } + 0.01 * f64::from((i * 37) % 17);
+        ws.write_number(i + 1, 0, y).unwrap();
+        ws.write_number(i + 1, 1, x).unwrap();
+        ws.write_number(i + 1, 2, z).unwrap();
+        ws.write_string(i + 1, 3, g).unwrap();
+    }
+    ws.write_string(1, 6, "#linear(y, x + x^2 + log(z) + x*g + g, name=m, base(g=\"C\"))").unwrap();
+    ws.write_string(2, 6, "#predict(m, rows=Data!A1:D31)").unwrap();
+    wb.save(&path).unwrap();
+    let out = d.join("out.xlsx");
+    let s = run(&RunConfig { input: path, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    assert!(s.reports.iter().all(|r| r.status == Status::Ok), "{:?}", s.problems);
+    let t = output::table(&out, "Intervals");
+    let rows = prediction_rows(&t, "#predict(m, rows=Data!A1:D31)");
+    assert_eq!(rows.len(), 30);
+    let data = output::table(&out, "Data");
+    let fc = data[0].iter().position(|h| text(h) == Some("Fitted (m)")).expect("a Fitted (m) column");
+    for (i, r) in rows.iter().enumerate() {
+        let want = num(&data[i + 1][fc]).unwrap();
+        let got = num(&r[3]).unwrap();
+        assert!((got - want).abs() <= 1e-10 * want.abs().max(1.0), "row {}: predicted {got}, fitted {want}", i + 2);
+        // The table echoes the inputs: x, z, g.
+        assert_eq!(text(&r[2]), text(&data[i + 1][3]));
+    }
     let _ = std::fs::remove_dir_all(&d);
 }
