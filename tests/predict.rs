@@ -343,3 +343,31 @@ fn predicting_at_the_data_rows_gives_the_fitted_values() {
     }
     let _ = std::fs::remove_dir_all(&d);
 }
+
+#[test]
+fn the_demo_calculator_offers_the_levels_and_caches_its_values() {
+    let input = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx");
+    let d = tmp("demo");
+    let out = d.join("greenhouse.fitted.xlsx");
+    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    // The Intervals sheet part holds a list validation of the bay levels.
+    let names = output::sheet_names(&out);
+    let idx = names.iter().position(|n| n == "Intervals").unwrap() + 1;
+    let mut z = zip::ZipArchive::new(std::fs::File::open(&out).unwrap()).unwrap();
+    let mut xml = String::new();
+    z.by_name(&format!("xl/worksheets/sheet{idx}.xml")).unwrap().read_to_string(&mut xml).unwrap();
+    assert!(xml.contains("<dataValidation type=\"list\""), "no drop-down list on Intervals");
+    assert!(xml.contains("\"East,North,South,West\""), "the list holds the bays in sorted order");
+    assert!(xml.contains("TINV("), "the t quantile is a live formula");
+    // Cached values: the calculator of main at the data's means equals #predict at those means.
+    let t = output::table(&out, "Intervals");
+    let at = t.iter().position(|r| r.first().and_then(text).is_some_and(|x| x.starts_with("Prediction calculator — main:"))).unwrap();
+    let means: Vec<f64> = (0..3).map(|k| num(&t[at + 3 + k][1]).unwrap()).collect();
+    let predicted = num(&t[at + 7][1]).expect("a cached predicted value");
+    let main = s.reports.iter().find(|r| r.name == "main").unwrap();
+    let o = main.outcome.as_ref().unwrap();
+    let b: Vec<f64> = o.coefficients.iter().map(|c| c.estimate.unwrap()).collect();
+    let by_hand = b[0] + b[1] * means[0] + b[2] * means[1] + b[3] * means[2]; // xᵀb (common practice)
+    assert!((predicted - by_hand).abs() < 1e-12 * by_hand.abs(), "{predicted} vs {by_hand}");
+    let _ = std::fs::remove_dir_all(&d);
+}
