@@ -237,6 +237,9 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
             Arg::Positional(e) => return Err(ctx.err(e.span, "#predict takes one fit name, then column=value pairs").help("write #predict(main, Light=14, CO2=900)")),
             Arg::Named { key, value, span } => {
                 let k = key.name.trim().to_lowercase();
+                if (k == "rows" && rows_arg.is_some()) || (k == "level" && level_arg.is_some()) {
+                    return Err(ctx.err(*span, format!("the option {k} is given twice")));
+                }
                 if k == "rows" {
                     rows_arg = Some(value);
                 } else if k == "level" {
@@ -347,6 +350,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
                     Some(n) => format!("did you mean {n}? The fit's columns are {}", names.join(", ")),
                     None => format!("the fit's columns are {}", names.join(", ")),
                 };
+                // Invariant: `u` is one of the keys given.
                 return Err(ctx.err(given[u].1, format!("the fit '{}' uses no column '{u}'", fit.name)).help(help));
             }
             let missing: Vec<&str> = recipe.inputs.iter().zip(&vals).filter(|(_, v)| v.is_none()).map(|(i, _)| i.name.as_str()).collect();

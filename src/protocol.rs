@@ -240,6 +240,15 @@ impl FitOutcome {
                 return Err(format!("the column '{}' has {} values for {} rows", c.label, c.values.len(), n));
             }
         }
+        if let Some(v) = &self.covariance {
+            let p = self.coefficients.len();
+            if v.len() != p || v.iter().any(|r| r.len() != p) {
+                return Err(format!("the covariance matrix is not {p} × {p} (one row and column per coefficient)"));
+            }
+            if v.iter().flatten().any(|x| !x.is_finite()) {
+                return Err("the covariance matrix has a value that is not a finite number".into());
+            }
+        }
         for c in &self.coefficients {
             for v in [c.estimate, c.std_error, c.lower, c.upper].into_iter().flatten() {
                 if v.is_infinite() {

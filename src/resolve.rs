@@ -10,7 +10,7 @@
 
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::{closest, Problem};
-use crate::recipe::{Func, Input, InputKind, Node, Op, Recipe};
+use crate::recipe::{Func, Input, InputKind, NewValue, Node, Op, Recipe};
 use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, ParamKind, PROTOCOL_VERSION};
 use crate::syntax::{self, Arg, BinOp, Expr, ExprKind, RangeRef, Request, Span, UnaryOp};
 use std::collections::{BTreeMap, BTreeSet, HashSet};
@@ -1025,18 +1025,18 @@ fn pick_table(grid: &Grid, requests: &HashSet<(u32, u32)>, names: &[String]) -> 
 /// rows. `None` when a term uses a range or anything a new value could not
 /// be given for.
 fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<String, String>, intercept: bool, columns: &[Column]) -> Option<Recipe> {
-    fn node(e: &Expr, frame: &Frame, keep: &[usize], bases: &BTreeMap<String, String>, inputs: &mut Vec<(Input, Option<Vec<f64>>)>) -> Option<Node> {
+    fn node(e: &Expr, frame: &Frame, keep: &[usize], bases: &BTreeMap<String, String>, inputs: &mut Vec<(Input, Option<Vec<f64>>, NewValue)>) -> Option<Node> {
         Some(match &e.kind {
             ExprKind::Name(n) | ExprKind::Quoted(n) => {
                 let name = n.trim();
-                if let Some(i) = inputs.iter().position(|(x, _)| x.name.eq_ignore_ascii_case(name)) {
+                if let Some(i) = inputs.iter().position(|(x, _, _)| x.name.eq_ignore_ascii_case(name)) {
                     return Some(Node::Input(i));
                 }
                 let col = match frame.headers.get(&name.to_lowercase()).map(|v| v.as_slice()) {
                     Some([c]) => *c,
                     _ => return None,
                 };
-                let (kind, values) = match read_column(frame.grid, col, &frame.rows, name) {
+                let (kind, values, first) = match read_column(frame.grid, col, &frame.rows, name) {
                     Factor::Num(_, v) => {
                         let xs: Vec<f64> = keep.iter().map(|&i| v.values[i]).collect();
                         if xs.is_empty() || xs.iter().any(|x| !x.is_finite()) {
@@ -1045,7 +1045,8 @@ fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<
                         let min = xs.iter().copied().fold(f64::INFINITY, f64::min);
                         let max = xs.iter().copied().fold(f64::NEG_INFINITY, f64::max);
                         let mean = xs.iter().sum::<f64>() / xs.len() as f64;
-                        (InputKind::Numeric { min, max, mean }, Some(xs))
+                        let first = NewValue::Number(xs[0]);
+                        (InputKind::Numeric { min, max, mean }, Some(xs), first)
                     }
                     Factor::Cat(c) => {
                         let levels: BTreeSet<&str> = keep.iter().filter_map(|&i| c.levels[i].as_deref()).collect();
@@ -1054,11 +1055,12 @@ fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<
                             Some(b) => levels.iter().find(|l| l.eq_ignore_ascii_case(b.trim()))?.clone(),
                             None => levels.first()?.clone(),
                         };
-                        (InputKind::Levels { levels, base }, None)
+                        let first = NewValue::Text(c.levels[*keep.first()?].clone()?);
+                        (InputKind::Levels { levels, base }, None, first)
                     }
                     Factor::Product(_) => return None,
                 };
-                inputs.push((Input { name: name.to_string(), kind }, values));
+                inputs.push((Input { name: name.to_string(), kind }, values, first));
                 Node::Input(inputs.len() - 1)
             }
             ExprKind::Number(x) => Node::Number(*x),
@@ -1084,18 +1086,20 @@ fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<
         trees.push(node(t, frame, keep, bases, &mut inputs)?);
     }
     let single_input = match inputs.as_slice() {
-        [(Input { kind: InputKind::Numeric { .. }, .. }, Some(v))] => Some(v.clone()),
+        [(Input { kind: InputKind::Numeric { .. }, .. }, Some(v), _)] => Some(v.clone()),
         _ => None,
     };
+    let first: Vec<NewValue> = inputs.iter().map(|(_, _, f)| f.clone()).collect();
     let recipe = Recipe {
         intercept,
-        inputs: inputs.into_iter().map(|(i, _)| i).collect(),
+        inputs: inputs.into_iter().map(|(i, _, _)| i).collect(),
         terms: trees,
         columns: columns.iter().map(|c| c.name.clone()).collect(),
         single_input,
     };
-    // The recipe must rebuild the model exactly: check it at the first kept row's inputs' defaults.
-    let defaults: Vec<_> = (0..recipe.inputs.len()).map(|i| recipe.default_value(i)).collect();
-    recipe.row(&defaults).ok()?;
-    Some(recipe)
+    // The recipe must rebuild the model exactly: check it on the first row used.
+    let row = recipe.row(&first).ok()?;
+    let skip = usize::from(intercept);
+    let same = columns.iter().zip(&row[skip..]).all(|(c, x)| c.values.first().is_some_and(|v| (v - x).abs() <= 1e-12 * v.abs().max(1.0)));
+    same.then_some(recipe)
 }
