@@ -47,8 +47,6 @@ def main(inp, out):
     assert [c.value for c in coef[1]][:6] == ["Fit", "Term", "Estimate", "Standard error", "t statistic", "p-value"]
     assert coef.freeze_panes == "A2" and coef.auto_filter.ref
     n = sum(1 for r in coef.iter_rows(min_row=2) if isinstance(r[2].value, float))
-    charts = sum(len(ws._charts) for ws in wb.worksheets)
-    assert charts == 0 or "Charts" in wb.sheetnames
     print(f"independent reader: {len(wb.sheetnames)} sheets, {len(requests)} requests ({errors} deliberate error), {n} coefficients: ok")
 
 

@@ -191,6 +191,7 @@ fn compare_refuses_other_responses_and_other_rows() {
             "#predict(a)",
             "#predict(late, AIRFLOW=60)",
             "#linear(STACKLOSS, AIRFLOW, name=late)",
+            "#predict(lat, AIRFLOW=60)",
         ],
     );
     let out = d.join("out.xlsx");
@@ -204,6 +205,10 @@ fn compare_refuses_other_responses_and_other_rows() {
     // A prediction may stand above the fit it names: host functions run after every fit.
     assert_eq!(s.reports[6].status, Status::Ok, "{}", msg(6));
     assert_eq!(s.reports[6].function, "predict");
+    // An unknown fit name: the nearest is suggested, with a caret under the name.
+    assert!(msg(8).contains("there is no fit named 'lat' — did you mean late?"), "{}", msg(8));
+    let p = s.problems.iter().find(|p| p.message.contains("'lat'")).unwrap();
+    assert!(format!("{p}").contains("    #predict(lat, AIRFLOW=60)\n             ^^^\n"), "{p}");
     let _ = std::fs::remove_dir_all(&d);
 }
 
