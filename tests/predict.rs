@@ -192,6 +192,8 @@ fn compare_refuses_other_responses_and_other_rows() {
             "#predict(late, AIRFLOW=60)",
             "#linear(STACKLOSS, AIRFLOW, name=late)",
             "#predict(lat, AIRFLOW=60)",
+            "#linear(STACKLOSS, AIRFLOW + WATERTEMP, data=Plant!A1:D15, name=short)",
+            "#compare(a, short)",
         ],
     );
     let out = d.join("out.xlsx");
@@ -207,6 +209,7 @@ fn compare_refuses_other_responses_and_other_rows() {
     assert_eq!(s.reports[6].function, "predict");
     // An unknown fit name: the nearest is suggested, with a caret under the name.
     assert!(msg(8).contains("there is no fit named 'lat' — did you mean late?"), "{}", msg(8));
+    assert!(msg(10).contains("the fits 'a' (21 rows) and 'short' (14 rows) use different rows"), "{}", msg(10));
     let p = s.problems.iter().find(|p| p.message.contains("'lat'")).unwrap();
     assert!(format!("{p}").contains("    #predict(lat, AIRFLOW=60)\n             ^^^\n"), "{p}");
     let _ = std::fs::remove_dir_all(&d);
