@@ -96,26 +96,37 @@ fn records() -> Vec<Record> {
     out
 }
 
-/// The request cells, written from N2 down.
-const REQUESTS: [&str; 5] = [
+/// The request cells, written from N2 down. The first five are the fits
+/// (the fifth with the deliberate typo); then a fit for the comparison, two
+/// predictions (one at typed values, one from the Plan sheet's table, whose
+/// last row lies outside the data on purpose) and a comparison of fits.
+const REQUESTS: [&str; 9] = [
     "#linear(Yield, Light)",
     "#linear(Yield, Light + CO2 + Irrigation, name=main)",
     "#linear(Yield, Light + CO2 + Bay, name=bays)",
     "#linear(Yield, Light + Light^2 + CO2, name=curved)",
     "#linear(Yield, Ligth + CO2)",
+    "#linear(Yield, Light + CO2, name=simple)",
+    "#predict(main, Light=14, CO2=900, Irrigation=30)",
+    "#predict(bays, rows=Plan!A1:C5)",
+    "#compare(simple, curved, bays)",
 ];
+
+/// The Plan sheet: conditions a grower might plan for, to predict from.
+const PLAN: [(f64, f64, &str); 4] = [(12.0, 700.0, "North"), (14.0, 900.0, "South"), (15.5, 1000.0, "East"), (18.0, 800.0, "West")];
 
 /// Column of the requests: N, leaving G..M (seven columns) empty after the table.
 const REQUEST_COL: u16 = 13;
 
-const NOTES: [&str; 8] = [
+const NOTES: [&str; 9] = [
     "About this workbook",
     "Invented data for trying plumb: a greenhouse with four bays (North, South, East, West), one record per bay per week from 5 January 2026.",
     "Light: hours of light per day, daylight plus lamps. CO2: mean concentration in ppm. Irrigation: litres per square metre per week.",
     "Yield: harvested kilograms per square metre in the week.",
     "A few readings are blank: the sensor was offline that week. plumb leaves such rows out of a fit and says how many.",
     "The requests in column N of the Weekly sheet are what plumb answers. Edit them, or type new ones into any empty cell.",
-    "The last request has a typo on purpose (Ligth), to show how plumb reports an error and suggests the closest column name.",
+    "The fifth request has a typo on purpose (Ligth), to show how plumb reports an error and suggests the closest column name.",
+    "The last requests show predictions from a named fit (at typed values, or for each row of the Plan sheet) and a comparison of fits of Yield.",
     "Run: plumb run greenhouse.xlsx",
 ];
 
@@ -167,6 +178,19 @@ fn main() -> Result<(), Box<dyn Error>> {
     }
     ws.set_column_width(REQUEST_COL, 52)?;
     ws.set_freeze_panes(1, 0)?;
+
+    let plan = wb.add_worksheet();
+    plan.set_name("Plan")?;
+    for (j, h) in ["Light", "CO2", "Bay"].iter().enumerate() {
+        plan.write_string_with_format(0, j as u16, *h, &header)?;
+    }
+    for (i, (light, co2, bay)) in PLAN.iter().enumerate() {
+        let row = i as u32 + 1;
+        plan.write_number(row, 0, *light)?;
+        plan.write_number(row, 1, *co2)?;
+        plan.write_string(row, 2, *bay)?;
+    }
+    plan.write_string_with_format(6, 0, "Planned conditions; #predict(bays, rows=Plan!A1:C5) on the Weekly sheet predicts Yield for each row. 18 hours of light is beyond the data on purpose.", &label)?;
 
     let notes = wb.add_worksheet();
     notes.set_name("Notes")?;

@@ -58,7 +58,9 @@ fn print_summary(s: &Summary) {
     for r in &s.reports {
         let status = r.status.as_str();
         let detail = match (&r.status, &r.outcome) {
-            (Status::Error, _) | (_, None) => r.messages.first().cloned().unwrap_or_default(),
+            (Status::Error, _) => r.messages.first().cloned().unwrap_or_default(),
+            (_, None) if r.host.is_some() => crate::layout::outcome_line(r),
+            (_, None) => r.messages.first().cloned().unwrap_or_default(),
             (_, Some(o)) => {
                 let r2 = o.statistic("r_squared").map(|v| format!(", R² = {v:.4}")).unwrap_or_default();
                 format!("{} fit, n = {}{r2}", r.function, r.rows_used)

@@ -10,7 +10,9 @@
 //! source grid row by row.
 
 use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Grid, Value, Workbook};
+use crate::host::HostOutcome;
 use crate::protocol::FitOutcome;
+use crate::recipe::Recipe;
 use std::collections::{BTreeMap, HashSet};
 
 /// How a cell looks.
@@ -44,6 +46,8 @@ pub enum Style {
     DateTime,
     /// A time of day.
     Time,
+    /// A cell the reader types into: shaded, bordered.
+    Input,
 }
 
 /// What a cell holds.
@@ -134,13 +138,51 @@ pub struct Sheet {
     pub freeze: Option<(u32, u32)>,
     /// A filter over a table.
     pub filter: Option<CellRange>,
+    /// Cells that offer a drop-down list of these choices.
+    pub choices: BTreeMap<(u32, u32), Vec<String>>,
+    /// Charts placed on the sheet.
+    pub charts: Vec<ChartSpec>,
+}
+
+/// A native chart of the workbook, reading cells (no writer types).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChartSpec {
+    /// Top-left cell (row, column) of the chart on its sheet.
+    pub anchor: (u32, u32),
+    /// Title.
+    pub title: String,
+    /// Label of the horizontal axis.
+    pub x_label: String,
+    /// Label of the vertical axis.
+    pub y_label: String,
+    /// The series, drawn in order.
+    pub series: Vec<SeriesSpec>,
+}
+
+/// One series of a scatter chart: x and y from one-column ranges.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SeriesSpec {
+    /// Legend name.
+    pub name: String,
+    /// Sheet holding the cells.
+    pub sheet: String,
+    /// Column of the x values.
+    pub x_col: u32,
+    /// Column of the y values.
+    pub y_col: u32,
+    /// First row (inclusive).
+    pub first_row: u32,
+    /// Last row (inclusive).
+    pub last_row: u32,
+    /// Drawn as a line without markers (else markers without a line).
+    pub line: bool,
 }
 
 impl Sheet {
-    fn new(name: &str) -> Self {
+    pub(crate) fn new(name: &str) -> Self {
         Sheet { name: name.to_string(), ..Default::default() }
     }
-    fn put(&mut self, row: u32, col: u32, cell: OutCell) {
+    pub(crate) fn put(&mut self, row: u32, col: u32, cell: OutCell) {
         self.cells.insert((row, col), cell);
     }
     /// Writes a header row and freezes it, with a filter over the table
@@ -263,6 +305,11 @@ pub struct Report {
     pub outcome: Option<FitOutcome>,
     /// Where per-row results go.
     pub place: Option<RowsPlace>,
+    /// How the fit's model columns are made from its inputs (for the
+    /// prediction calculator and charts), when known.
+    pub recipe: Option<Recipe>,
+    /// The tables of a host function (`#predict`, `#compare`).
+    pub host: Option<HostOutcome>,
 }
 
 /// Facts about the run for the About sheet.
@@ -279,7 +326,9 @@ pub struct RunInfo {
 }
 
 /// Names of the result sheets.
-pub const RESULT_SHEETS: [&str; 6] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About"];
+/// Comparisons and Charts come last in this list but are placed after
+/// Diagnostics, and only when they have content.
+pub const RESULT_SHEETS: [&str; 8] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About", "Comparisons", "Charts"];
 
 /// A result sheet name that does not clash with a source sheet: the plain
 /// name, else the name with ` (plumb)`, else with a number.
@@ -295,12 +344,21 @@ fn unique_name(base: &str, taken: &HashSet<String>) -> String {
     (2..).map(|i| format!("{base} {i}")).find(|n| free(n)).unwrap_or_else(|| base.to_string())
 }
 
-fn link_to(sheet: &str, row: u32, col: u32) -> String {
+pub(crate) fn link_to(sheet: &str, row: u32, col: u32) -> String {
     format!("{}!{}", quote_sheet_name(sheet), CellAddress::new(sheet, row, col).local())
 }
 
 /// The one line shown in place of a request cell.
 pub fn outcome_line(r: &Report) -> String {
+    if let (Some(h), false) = (&r.host, r.status == Status::Error) {
+        let warn = if r.status == Status::Warning { "; outside the data, see Fits" } else { "" };
+        return match h {
+            crate::host::HostOutcome::Prediction(p) => format!("predictions from {} for {} point{}{warn} → Intervals", p.fit, p.rows.len(), if p.rows.len() == 1 { "" } else { "s" }),
+            crate::host::HostOutcome::Comparison(c) => {
+                format!("comparison of {} fits of {}; lowest AIC: {} → Comparisons", c.fits.len(), c.response, c.fits.get(c.lowest_aic).map(|f| f.name.as_str()).unwrap_or(""))
+            }
+        };
+    }
     match (&r.status, &r.outcome) {
         (Status::Error, _) | (_, None) => {
             format!("{} — error: {}", r.text.trim(), r.messages.first().map(String::as_str).unwrap_or("the request failed"))
@@ -322,6 +380,7 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     let taken: HashSet<String> = book.sheets.iter().map(|g| g.name.to_lowercase()).collect();
     let names: Vec<String> = RESULT_SHEETS.iter().map(|n| unique_name(n, &taken)).collect();
     let (fits_n, coef_n, int_n, diag_n, guide_n, about_n) = (&names[0], &names[1], &names[2], &names[3], &names[4], &names[5]);
+    let (cmp_n, charts_n) = (&names[6], &names[7]);
 
     // Coefficients first: other sheets link to its rows.
     let mut coef = Sheet::new(coef_n);
@@ -376,6 +435,14 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     }
     coef.close_table(0, 9);
     ints.close_table(0, 6);
+    let mut host_links = crate::tables::intervals_extras(&mut ints, irow, reports);
+    let (comparisons, cmp_links) = crate::tables::comparisons_sheet(cmp_n, reports);
+    for (l, c) in host_links.iter_mut().zip(cmp_links) {
+        if l.is_none() {
+            *l = c;
+        }
+    }
+    let charts = crate::tables::charts_sheet(charts_n, reports);
 
     // Fits.
     let mut fits = Sheet::new(fits_n);
@@ -461,9 +528,10 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     let mut claimed: Vec<Vec<(u32, u32, u32)>> = vec![Vec::new(); book.sheets.len()]; // (col, first_row, last_row)
     for (i, r) in reports.iter().enumerate() {
         let Some(si) = book.sheets.iter().position(|g| g.name == r.cell.sheet) else { continue };
-        let target = match first_coef_row[i] {
-            Some(cr) => link_to(coef_n, cr, 0),
-            None => link_to(fits_n, i as u32 + 1, 0),
+        let target = match (first_coef_row[i], &host_links[i]) {
+            (Some(cr), _) => link_to(coef_n, cr, 0),
+            (None, Some(l)) if r.status != Status::Error => l.clone(),
+            _ => link_to(fits_n, i as u32 + 1, 0),
         };
         let style = match r.status {
             Status::Ok => Style::Good,
@@ -472,6 +540,16 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
         };
         let mut cell = OutCell::text(outcome_line(r), style).link(target);
         cell.note = Some(format!("plumb request: {}", r.text.trim()));
+        if let (Some(crate::host::HostOutcome::Prediction(p)), false) = (&r.host, r.status == Status::Error) {
+            if let [pr] = p.rows.as_slice() {
+                // One point: the request cell holds the predicted value itself, a number other cells can use.
+                cell = OutCell::number(pr.predicted, if r.status == Status::Ok { Style::Number } else { Style::Warning });
+                cell.note = Some(format!(
+                    "plumb request: {}\nPredicted {} from the fit {}: {}; mean at level {}: {} to {}; a new observation: {} to {}. Details on {int_n}.",
+                    r.text.trim(), r.response, p.fit, pr.predicted, p.level, pr.mean_lower, pr.mean_upper, pr.new_lower, pr.new_upper
+                ));
+            }
+        }
         overlays[si].cells.insert((r.cell.row, r.cell.col), cell);
     }
     for r in reports {
@@ -526,7 +604,11 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
         about.put(row, 2, OutCell::text(r.status.as_str(), Style::Plain));
     }
 
-    Book { overlays, sheets: vec![fits, coef, ints, diag, guide, about], keep_formulas: true }
+    let mut sheets = vec![fits, coef, ints, diag];
+    sheets.extend(comparisons);
+    sheets.extend(charts);
+    sheets.extend([guide, about]);
+    Book { overlays, sheets, keep_formulas: true }
 }
 
 /// The first run of `width` columns at or right of `start` that are free in
@@ -592,6 +674,14 @@ fn guide_sheet(name: &str) -> Sheet {
         ("Warnings", "Plain-language warnings on the Fits and Diagnostics sheets and at the request cell come from these figures: residuals correlated in row order (Durbin–Watson outside 1.5–2.5), spread growing with the fitted value (Breusch–Pagan p below 0.05), a row with a large influence (Cook's distance above 0.5, named by its sheet row), terms nearly collinear (VIF above 10), and rows left out."),
         ("Analysis of variance", "The split of the total sum of squares into the part the fit explains (regression) and the part left over (residual), with degrees of freedom and mean squares."),
         ("Rows left out", "Rows with a blank, text or error cell in a column the request uses are left out and counted (missing=skip); missing=stop makes the request fail instead."),
+        ("Predictions", ""),
+        ("Predicted value", "What the fit gives for the response at the values of a #predict request or of the calculator's inputs."),
+        ("Interval of the mean", "The range in which the average response at those values lies, at the stated level: how precisely the fit pins down the mean."),
+        ("Interval of a new observation", "The range in which one new measurement at those values would fall, at the stated level. It is wider than the interval of the mean, because single measurements scatter around the mean."),
+        ("Outside the data", "A point whose values lie beyond those the fit was made from, or whose leverage exceeds every row's: the prediction is an extrapolation and may be far off."),
+        ("Prediction calculator", "On the Intervals sheet, one per fit: type values into the shaded cells and the prediction and both intervals follow, computed by the workbook's own formulas from the coefficients and their covariance shown below them."),
+        ("Comparisons", "Fits of one response side by side. Lower AIC or BIC is better; for fits whose terms contain another's, a small p-value of F says the extra terms help. When figures are close, prefer the simpler fit."),
+        ("Charts", "Per fit: the data with the fitted line (or observed against fitted values: points near the line fit well), residuals against fitted values (look for a pattern or a funnel shape: there should be none), and a normal quantile plot (points near the line mean the residuals look normal, which the p-values and intervals assume)."),
         ("Cautions", ""),
         ("Association is not causation", "A fit shows how the response moves with the terms in these data. It does not show that changing a term would change the response."),
         ("No extrapolation", "Predictions are only supported within the range of the data the fit was made from."),

@@ -14,12 +14,15 @@
 pub mod cells;
 pub mod cli;
 pub mod fits;
+pub mod host;
 pub mod layout;
 pub mod numeric;
 pub mod pipeline;
 pub mod problems;
 pub mod protocol;
 pub mod read;
+pub mod recipe;
 pub mod resolve;
 pub mod syntax;
+pub mod tables;
 pub mod write;

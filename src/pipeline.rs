@@ -137,15 +137,33 @@ pub fn evaluate(input: &Path, registry: &Registry) -> Result<(Workbook, Summary)
     Ok((book, summary))
 }
 
-/// Evaluates every request of a workbook already read.
+/// Evaluates every request of a workbook already read: first every fit, in
+/// workbook order, then the host's own functions (`#predict`, `#compare`),
+/// which use the fits by name wherever those stand in the workbook.
 pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summary {
     let found = resolve::find_requests(book);
     let request_cells: HashSet<CellAddress> = found.iter().map(|f| f.cell.clone()).collect();
+    let mut slots: Vec<Option<(Report, Vec<Problem>)>> = Vec::new();
+    let mut deferred = Vec::new();
+    let mut names: HashSet<String> = HashSet::new();
+    for (i, f) in found.iter().enumerate() {
+        let host = syntax::parse_request(&f.text).ok().filter(|p| registry.host_function(&p.function.name).is_some());
+        match host {
+            Some(parsed) => {
+                deferred.push((i, parsed));
+                slots.push(None);
+            }
+            None => slots.push(Some(evaluate_one(book, f, registry, &request_cells, &mut names))),
+        }
+    }
+    let fits: Vec<&Report> = slots.iter().flatten().map(|(r, _)| r).collect();
+    let done: Vec<(usize, (Report, Vec<Problem>))> = deferred.iter().map(|(i, parsed)| (*i, evaluate_host(book, &found[*i], parsed, &fits))).collect();
+    for (i, d) in done {
+        slots[i] = Some(d);
+    }
     let mut reports = Vec::new();
     let mut problems = Vec::new();
-    let mut names: HashSet<String> = HashSet::new();
-    for f in &found {
-        let (report, mut probs) = evaluate_one(book, f, registry, &request_cells, &mut names);
+    for (report, mut probs) in slots.into_iter().flatten() {
         for p in &mut probs {
             p.file = Some(file.to_string());
         }
@@ -153,6 +171,49 @@ pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summar
         reports.push(report);
     }
     Summary { reports, problems, output: None }
+}
+
+/// Evaluates one `#predict` or `#compare` request against the fits.
+fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[&Report]) -> (Report, Vec<Problem>) {
+    let fname = parsed.function.name.to_lowercase();
+    let mut report = Report {
+        name: f.cell.to_string(),
+        function: fname.clone(),
+        cell: f.cell.clone(),
+        text: f.text.clone(),
+        response: String::new(),
+        terms: Vec::new(),
+        level: 0.95,
+        rows_used: 0,
+        rows_left_out: 0,
+        status: Status::Error,
+        messages: Vec::new(),
+        outcome: None,
+        place: None,
+        recipe: None,
+        host: None,
+    };
+    let result = if fname == "predict" {
+        crate::host::predict(book, &f.cell, &f.text, parsed, fits)
+    } else {
+        crate::host::compare(&f.cell, &f.text, parsed, fits)
+    };
+    match result {
+        Ok(h) => {
+            report.response = h.response;
+            report.terms = h.fits;
+            report.rows_used = h.rows_used;
+            report.level = h.level;
+            report.messages = h.warnings.iter().map(|p| p.one_line()).collect();
+            report.status = if h.warnings.is_empty() { Status::Ok } else { Status::Warning };
+            report.host = Some(h.outcome);
+            (report, h.warnings)
+        }
+        Err(p) => {
+            report.messages = vec![p.one_line()];
+            (report, vec![p])
+        }
+    }
 }
 
 fn evaluate_one(
@@ -176,6 +237,8 @@ fn evaluate_one(
         messages: Vec::new(),
         outcome: None,
         place: None,
+        recipe: None,
+        host: None,
     };
     let fail = |mut report: Report, p: Problem| {
         report.messages = vec![p.one_line()];
@@ -261,6 +324,7 @@ fn evaluate_one(
         rows: pl.rows.clone(),
     });
     report.outcome = Some(outcome);
+    report.recipe = resolved.recipe.clone();
     (report, problems)
 }
 

@@ -243,6 +243,12 @@ pub struct FitOutcome {
     pub warnings: Vec<String>,
     /// Which R² the fit reports and similar remarks.
     pub notes: Vec<String>,
+    /// The covariance matrix of the estimates, one row per coefficient in
+    /// coefficient order (rows and columns of a coefficient without an
+    /// estimate are zero), when the fit has one: what predictions with
+    /// intervals need, with the `rmse` and `df_resid` statistics.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub covariance: Option<Vec<Vec<f64>>>,
     /// Which standard errors the coefficient table uses (`classic`, `HC3`,
     /// …), shown beside every coefficient; `None` when the fit does not say.
     #[serde(default)]
@@ -292,6 +298,15 @@ impl FitOutcome {
         for w in &self.row_warnings {
             if w.row >= n {
                 return Err(format!("a warning names row {} of {}", w.row, n));
+            }
+        }
+        if let Some(v) = &self.covariance {
+            let p = self.coefficients.len();
+            if v.len() != p || v.iter().any(|r| r.len() != p) {
+                return Err(format!("the covariance matrix is not {p} × {p} (one row and column per coefficient)"));
+            }
+            if v.iter().flatten().any(|x| !x.is_finite()) {
+                return Err("the covariance matrix has a value that is not a finite number".into());
             }
         }
         for c in &self.coefficients {

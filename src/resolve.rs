@@ -11,6 +11,7 @@
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::{closest, Problem};
 use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, ParamKind, PowerOf, PROTOCOL_VERSION};
+use crate::recipe::{Func, Input, InputKind, NewValue, Node, Op, Recipe};
 use crate::syntax::{self, Arg, BinOp, Expr, ExprKind, RangeRef, Request, Span, UnaryOp};
 use std::collections::{BTreeMap, BTreeSet, HashSet};
 
@@ -111,6 +112,9 @@ pub struct Resolved {
     pub left_out: LeftOut,
     /// Warnings about the data (rows left out, …).
     pub warnings: Vec<Problem>,
+    /// How the model columns are made from the inputs, for predictions;
+    /// `None` when a term names a column by a range rather than a header.
+    pub recipe: Option<Recipe>,
 }
 
 /// Why a row cannot be used; the order is the order of reports.
@@ -1016,7 +1020,9 @@ pub fn resolve(
         first_row: frame.rows[0],
         last_row: *frame.rows.last().unwrap_or(&frame.rows[0]),
     };
+    let recipe = build_recipe(&frame, &keep, &term_exprs, &bases, intercept, &request.columns);
     Ok(Resolved {
+        recipe,
         request,
         name,
         response_label: typed(text, response_expr.span),
@@ -1075,4 +1081,88 @@ fn pick_table(grid: &Grid, requests: &HashSet<(u32, u32)>, names: &[String]) -> 
             let hits = names.iter().filter(|n| f.has(n)).count();
             (hits, t.rows() as u64 * t.cols() as u64)
         })
+}
+
+/// The recipe of a model: each term as a tree over named input columns,
+/// with each input's range (numbers) or levels and base (text) in the kept
+/// rows. `None` when a term uses a range or anything a new value could not
+/// be given for.
+fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<String, String>, intercept: bool, columns: &[Column]) -> Option<Recipe> {
+    fn node(e: &Expr, frame: &Frame, keep: &[usize], bases: &BTreeMap<String, String>, inputs: &mut Vec<(Input, Option<Vec<f64>>, NewValue)>) -> Option<Node> {
+        Some(match &e.kind {
+            ExprKind::Name(n) | ExprKind::Quoted(n) => {
+                let name = n.trim();
+                if let Some(i) = inputs.iter().position(|(x, _, _)| x.name.eq_ignore_ascii_case(name)) {
+                    return Some(Node::Input(i));
+                }
+                let col = match frame.headers.get(&name.to_lowercase()).map(|v| v.as_slice()) {
+                    Some([c]) => *c,
+                    _ => return None,
+                };
+                let (kind, values, first) = match read_column(frame.grid, col, &frame.rows, name) {
+                    Factor::Num(_, v) => {
+                        let xs: Vec<f64> = keep.iter().map(|&i| v.values[i]).collect();
+                        if xs.is_empty() || xs.iter().any(|x| !x.is_finite()) {
+                            return None;
+                        }
+                        let min = xs.iter().copied().fold(f64::INFINITY, f64::min);
+                        let max = xs.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+                        let mean = xs.iter().sum::<f64>() / xs.len() as f64;
+                        let first = NewValue::Number(xs[0]);
+                        (InputKind::Numeric { min, max, mean }, Some(xs), first)
+                    }
+                    Factor::Cat(c) => {
+                        let levels: BTreeSet<&str> = keep.iter().filter_map(|&i| c.levels[i].as_deref()).collect();
+                        let levels: Vec<String> = levels.into_iter().map(str::to_string).collect();
+                        let base = match bases.get(&name.to_lowercase()) {
+                            Some(b) => levels.iter().find(|l| l.eq_ignore_ascii_case(b.trim()))?.clone(),
+                            None => levels.first()?.clone(),
+                        };
+                        let first = NewValue::Text(c.levels[*keep.first()?].clone()?);
+                        (InputKind::Levels { levels, base }, None, first)
+                    }
+                    Factor::Product(_) => return None,
+                };
+                inputs.push((Input { name: name.to_string(), kind }, values, first));
+                Node::Input(inputs.len() - 1)
+            }
+            ExprKind::Number(x) => Node::Number(*x),
+            ExprKind::Paren(inner) => node(inner, frame, keep, bases, inputs)?,
+            ExprKind::Unary { op: UnaryOp::Neg, operand } => Node::Neg(Box::new(node(operand, frame, keep, bases, inputs)?)),
+            ExprKind::Binary { op, lhs, rhs } => {
+                let op = match op {
+                    BinOp::Add => Op::Add,
+                    BinOp::Sub => Op::Sub,
+                    BinOp::Mul => Op::Mul,
+                    BinOp::Div => Op::Div,
+                    BinOp::Pow => Op::Pow,
+                };
+                Node::Bin(op, Box::new(node(lhs, frame, keep, bases, inputs)?), Box::new(node(rhs, frame, keep, bases, inputs)?))
+            }
+            ExprKind::Call { name, args } if args.len() == 1 => Node::Call(Func::from_name(&name.name)?, Box::new(node(&args[0], frame, keep, bases, inputs)?)),
+            _ => return None,
+        })
+    }
+    let mut inputs = Vec::new();
+    let mut trees = Vec::new();
+    for t in terms {
+        trees.push(node(t, frame, keep, bases, &mut inputs)?);
+    }
+    let single_input = match inputs.as_slice() {
+        [(Input { kind: InputKind::Numeric { .. }, .. }, Some(v), _)] => Some(v.clone()),
+        _ => None,
+    };
+    let first: Vec<NewValue> = inputs.iter().map(|(_, _, f)| f.clone()).collect();
+    let recipe = Recipe {
+        intercept,
+        inputs: inputs.into_iter().map(|(i, _, _)| i).collect(),
+        terms: trees,
+        columns: columns.iter().map(|c| c.name.clone()).collect(),
+        single_input,
+    };
+    // The recipe must rebuild the model exactly: check it on the first row used.
+    let row = recipe.row(&first).ok()?;
+    let skip = usize::from(intercept);
+    let same = columns.iter().zip(&row[skip..]).all(|(c, x)| c.values.first().is_some_and(|v| (v - x).abs() <= 1e-12 * v.abs().max(1.0)));
+    same.then_some(recipe)
 }

@@ -8,8 +8,8 @@
 //! place only when complete, so no half-written output is ever left behind.
 
 use crate::cells::{DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
-use crate::layout::{Book, Cached, Content, OutCell, Overlay, Sheet, Style};
-use rust_xlsxwriter::{DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
+use crate::layout::{Book, Cached, ChartSpec, Content, OutCell, Overlay, Sheet, Style};
+use rust_xlsxwriter::{Chart, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
 use std::collections::HashMap;
 use std::fmt;
 use std::path::{Path, PathBuf};
@@ -105,6 +105,7 @@ impl Formats {
                 Style::Warning => f.set_font_color(0x9C5700),
                 Style::Error => f.set_font_color(0x9C0006).set_bold(),
                 Style::Link => f.set_font_color(0x0563C1).set_underline(rust_xlsxwriter::FormatUnderline::Single),
+                Style::Input => f.set_background_color(0xFFF2CC).set_border(FormatBorder::Thin),
                 _ => f,
             }
         })
@@ -322,7 +323,40 @@ fn write_result(ws: &mut Worksheet, fm: &mut Formats, sheet: &Sheet, path: &Path
     if let Some(f) = sheet.filter {
         ws.autofilter(f.first_row, f.first_col as u16, f.last_row, f.last_col as u16).map_err(&e)?;
     }
+    for ((r, c), levels) in &sheet.choices {
+        // A list longer than the format's 255 characters gets no drop-down; the cell stays typeable.
+        if let Ok(dv) = DataValidation::new().allow_list_strings(levels) {
+            ws.add_data_validation(*r, *c as u16, *r, *c as u16, &dv).map_err(&e)?;
+        }
+    }
+    for spec in &sheet.charts {
+        let chart = chart(spec);
+        ws.insert_chart(spec.anchor.0, spec.anchor.1 as u16, &chart).map_err(&e)?;
+    }
     Ok(())
+}
+
+/// A scatter chart of the workbook from its abstract spec: markers without
+/// lines, or lines without markers, each series reading one-column ranges.
+fn chart(spec: &ChartSpec) -> Chart {
+    let mut chart = Chart::new_scatter();
+    for s in &spec.series {
+        let series = chart.add_series();
+        series
+            .set_name(s.name.as_str())
+            .set_categories((s.sheet.as_str(), s.first_row, s.x_col as u16, s.last_row, s.x_col as u16))
+            .set_values((s.sheet.as_str(), s.first_row, s.y_col as u16, s.last_row, s.y_col as u16));
+        if s.line {
+            series.set_marker(ChartMarker::new().set_none()).set_format(ChartFormat::new().set_line(ChartLine::new().set_width(1.75)));
+        } else {
+            series.set_marker(ChartMarker::new().set_type(ChartMarkerType::Circle).set_size(5));
+        }
+    }
+    chart.title().set_name(spec.title.as_str());
+    chart.x_axis().set_name(spec.x_label.as_str());
+    chart.y_axis().set_name(spec.y_label.as_str());
+    chart.set_width(500).set_height(340);
+    chart
 }
 
 /// Unix seconds to the workbook's date-time.

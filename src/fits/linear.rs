@@ -216,6 +216,10 @@ impl Fit for Linear {
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());
         }
+        // Covariance for predictions (column-major p×p from the fit; NaN of aliased terms as 0).
+        out.covariance = Some(
+            (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
+        );
         let std_res = numeric::standardized_residuals(&fit);
         let cooks = numeric::cooks_distance(&fit);
         let external = diag::studentized_residuals_external(&fit);

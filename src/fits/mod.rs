@@ -80,15 +80,18 @@ struct Entry {
     fit: Box<dyn Fit>,
 }
 
-/// Fits keyed by function name.
+/// Fits keyed by function name, and the host's own functions.
 pub struct Registry {
     entries: BTreeMap<String, Entry>,
+    /// Functions the host evaluates itself after the fits (`#predict`,
+    /// `#compare`): they work on other requests' outcomes, not on data.
+    host: BTreeMap<String, FunctionSpec>,
 }
 
 impl Registry {
     /// An empty registry.
     pub fn empty() -> Self {
-        Registry { entries: BTreeMap::new() }
+        Registry { entries: BTreeMap::new(), host: BTreeMap::new() }
     }
 
     /// The registry with every built-in fit.
@@ -101,7 +104,15 @@ impl Registry {
                 unreachable!("built-in fits clash ({manifest_version}): {e}");
             }
         }
+        for spec in host_functions() {
+            r.host.insert(spec.name.clone(), spec);
+        }
         r
+    }
+
+    /// A function the host evaluates itself, by name (case-insensitive).
+    pub fn host_function(&self, name: &str) -> Option<&FunctionSpec> {
+        self.host.get(&name.to_lowercase())
     }
 
     /// Adds a fit served by `plugin` speaking protocol `version`.
@@ -110,6 +121,9 @@ impl Registry {
             return Err(RegistryError::Version { plugin: plugin.to_string(), version });
         }
         let name = fit.spec().name.to_lowercase();
+        if self.host.contains_key(&name) {
+            return Err(RegistryError::Duplicate { function: name, plugin: "host".into() });
+        }
         if let Some(e) = self.entries.get(&name) {
             return Err(RegistryError::Duplicate { function: name, plugin: e.plugin.clone() });
         }
@@ -122,14 +136,14 @@ impl Registry {
         self.entries.get(&name.to_lowercase()).map(|e| &*e.fit)
     }
 
-    /// Every function's spec, by name.
+    /// Every function's spec with its plugin (`host` for the host's own), by name.
     pub fn functions(&self) -> impl Iterator<Item = (&str, &FunctionSpec)> {
-        self.entries.values().map(|e| (e.plugin.as_str(), e.fit.spec()))
+        self.entries.values().map(|e| (e.plugin.as_str(), e.fit.spec())).chain(self.host.values().map(|s| ("host", s)))
     }
 
     /// The names of every function, for suggestions.
     pub fn names(&self) -> impl Iterator<Item = &str> {
-        self.entries.keys().map(|k| k.as_str())
+        self.entries.keys().map(|k| k.as_str()).chain(self.host.keys().map(|k| k.as_str()))
     }
 
     /// The manifest of the built-in plugin.
@@ -141,4 +155,38 @@ impl Registry {
             functions: self.entries.values().filter(|e| e.plugin == "builtin").map(|e| e.fit.spec().clone()).collect(),
         }
     }
+}
+
+/// The specs of the host's own functions: `#predict` and `#compare`.
+pub fn host_functions() -> Vec<FunctionSpec> {
+    use crate::protocol::{ParamKind, ParamSpec};
+    let p = |name: &str, kind: ParamKind, required: bool, default: Option<&str>, help: &str| ParamSpec {
+        name: name.into(),
+        kind,
+        required,
+        default: default.map(Into::into),
+        choices: Vec::new(),
+        help: help.into(),
+    };
+    vec![
+        FunctionSpec {
+            name: "predict".into(),
+            help: "predicted value, confidence interval of the mean and prediction interval of a new observation, from a named #linear fit at new values given as column=value (or a table with rows=)".into(),
+            positional: vec![p("fit", ParamKind::FitName, true, None, "the name= of a #linear request in this workbook")],
+            options: vec![
+                p("rows", ParamKind::Range, false, None, "a table of new values, headers in its first row, such as rows=Plan!A1:C13"),
+                p("level", ParamKind::Number, false, None, "confidence level of the intervals (default: the fit's level)"),
+                p("<column>", ParamKind::Column, false, None, "each column of the fit = its new value, such as Light=14 or Bay=\"North\" (every column the fit uses, unless rows= is given)"),
+            ],
+        },
+        FunctionSpec {
+            name: "compare".into(),
+            help: "a side-by-side comparison of named fits of one response on the same rows: R², AIC, BIC, nested F tests and the coefficients".into(),
+            positional: vec![
+                p("fit", ParamKind::FitName, true, None, "the name= of a fit"),
+                p("fit", ParamKind::FitName, true, None, "another fit's name; give as many as you like"),
+            ],
+            options: Vec::new(),
+        },
+    ]
 }

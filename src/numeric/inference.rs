@@ -428,6 +428,16 @@ pub fn cooks_distance(fit: &LsFit) -> Vec<f64> {
         .collect()
 }
 
+/// Theoretical normal quantiles for a normal quantile plot of `n` sorted
+/// values: `Φ⁻¹((i − 0.375)/(n + 0.25))`, `i = 1…n`, the plotting positions
+/// of G. Blom, *Statistical Estimates and Transformed Beta-Variables*
+/// (Wiley, 1958); `Φ⁻¹` is statrs' `Normal::inverse_cdf`.
+pub fn normal_plot_positions(n: usize) -> Vec<f64> {
+    // Invariant: the standard normal's parameters (0, 1) are valid.
+    let z = Normal::new(0.0, 1.0).expect("the standard normal is valid");
+    (1..=n).map(|i| z.inverse_cdf((i as f64 - 0.375) / (n as f64 + 0.25))).collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -28,7 +28,7 @@ mod tests;
 
 pub use inference::{
     chi2_cdf, chi2_quantile, chi2_sf, coefficient_table, cooks_distance, f_cdf, f_quantile, f_sf,
-    standardized_residuals, t_quantile, t_sf, CoefficientRow,
+    normal_plot_positions, standardized_residuals, t_quantile, t_sf, CoefficientRow,
 };
 pub use lsq::{least_squares, CovarianceMethod, Refinement, RANK_TOLERANCE};
 pub use poly::{least_squares_powers, PowerGroup};

@@ -1,0 +1,497 @@
+//! The host's own functions, `#predict` and `#compare`, evaluated after the fits.
+//!
+//! They work on the outcomes of other requests, found by name: `#predict`
+//! turns new values into a model row through the fit's [`Recipe`] and
+//! computes the predicted value with the confidence interval of the mean
+//! and the prediction interval of a new observation; `#compare` sets fits
+//! of one response on the same rows side by side, with nested-model F
+//! tests. The results are plain data that `layout` arranges.
+//!
+//! Formulas (any regression text, e.g. Weisberg, *Applied Linear
+//! Regression*, 4th ed., 2014, §3.6 and §6.1; statsmodels' `get_prediction`
+//! and `compare_f_test` compute the same): with model row `x`, estimates
+//! `b`, covariance `V = s²(XᵀX)⁻¹`, residual standard deviation `s` on `df`
+//! degrees of freedom and `t = t_{1−α/2, df}`,
+//! `ŷ = xᵀb`, `se_mean = √(xᵀVx)`, `se_new = √(s² + xᵀVx)`,
+//! mean interval `ŷ ± t·se_mean`, new-observation interval `ŷ ± t·se_new`;
+//! the leverage of the new point is `xᵀVx / s²`. Nested F test of a smaller
+//! fit (residual sum of squares `SSE₀`, `df₀`) inside a larger (`SSE₁`,
+//! `df₁`): `F = ((SSE₀ − SSE₁)/(df₀ − df₁)) / (SSE₁/df₁)` on
+//! `(df₀ − df₁, df₁)` degrees of freedom.
+
+use crate::cells::{CellAddress, Value, Workbook};
+use crate::layout::Report;
+use crate::numeric::{f_sf, t_quantile};
+use crate::problems::{closest, Problem};
+use crate::recipe::{NewValue, Recipe};
+use crate::syntax::{Arg, ExprKind, Request, UnaryOp};
+use std::collections::BTreeMap;
+
+/// One point of a prediction.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PredictionRow {
+    /// The input values, in the recipe's input order.
+    pub values: Vec<NewValue>,
+    /// Predicted value `xᵀb`.
+    pub predicted: f64,
+    /// Standard error of the mean at this point.
+    pub se_mean: f64,
+    /// Confidence interval of the mean.
+    pub mean_lower: f64,
+    /// Upper end.
+    pub mean_upper: f64,
+    /// Prediction interval of a new observation.
+    pub new_lower: f64,
+    /// Upper end.
+    pub new_upper: f64,
+    /// Leverage of the point, `xᵀVx / s²`.
+    pub leverage: f64,
+    /// Why the point lies outside the data, if it does.
+    pub outside: Vec<String>,
+}
+
+/// The outcome of a `#predict` request.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Prediction {
+    /// The fit's name.
+    pub fit: String,
+    /// The input names, in order.
+    pub inputs: Vec<String>,
+    /// Confidence level.
+    pub level: f64,
+    /// One row per point.
+    pub rows: Vec<PredictionRow>,
+}
+
+/// One fit in a comparison.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ComparedFit {
+    /// Fit name.
+    pub name: String,
+    /// Rows used.
+    pub n: f64,
+    /// Parameters estimated.
+    pub parameters: f64,
+    /// R².
+    pub r_squared: f64,
+    /// Adjusted R².
+    pub adj_r_squared: f64,
+    /// Root mean squared error.
+    pub rmse: f64,
+    /// AIC.
+    pub aic: f64,
+    /// BIC.
+    pub bic: f64,
+    /// Estimate and standard error per term of [`Comparison::terms`].
+    pub coefficients: Vec<Option<(Option<f64>, Option<f64>)>>,
+}
+
+/// A nested-model F test.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NestedTest {
+    /// The smaller fit.
+    pub smaller: String,
+    /// The larger fit, whose terms contain the smaller's.
+    pub larger: String,
+    /// F statistic.
+    pub f: f64,
+    /// Numerator degrees of freedom.
+    pub df_num: f64,
+    /// Denominator degrees of freedom.
+    pub df_den: f64,
+    /// Upper-tail p-value.
+    pub p_value: f64,
+}
+
+/// The outcome of a `#compare` request.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Comparison {
+    /// The response, as typed in the first fit.
+    pub response: String,
+    /// The fits, in the order named.
+    pub fits: Vec<ComparedFit>,
+    /// Index of the fit with the lowest AIC.
+    pub lowest_aic: usize,
+    /// Every pair of nested fits.
+    pub nested: Vec<NestedTest>,
+    /// Every term of any fit, in order of first appearance.
+    pub terms: Vec<String>,
+}
+
+/// What a host function produced.
+#[derive(Debug, Clone, PartialEq)]
+pub enum HostOutcome {
+    /// `#predict`.
+    Prediction(Prediction),
+    /// `#compare`.
+    Comparison(Comparison),
+}
+
+/// What the pipeline needs of a host function's evaluation.
+#[derive(Debug, Clone)]
+pub struct HostResult {
+    /// The tables.
+    pub outcome: HostOutcome,
+    /// Warnings (points outside the data).
+    pub warnings: Vec<Problem>,
+    /// The response of the fits used.
+    pub response: String,
+    /// The names of the fits used.
+    pub fits: Vec<String>,
+    /// Rows of the (first) fit used.
+    pub rows_used: usize,
+    /// Confidence level used.
+    pub level: f64,
+}
+
+struct Ctx<'a> {
+    cell: &'a CellAddress,
+    text: &'a str,
+}
+
+impl Ctx<'_> {
+    fn err(&self, span: crate::syntax::Span, msg: impl Into<String>) -> Problem {
+        Problem::error(msg).at(self.cell.clone()).in_text(self.text, span.start, span.end)
+    }
+    fn whole(&self, msg: impl Into<String>) -> Problem {
+        Problem::error(msg).at(self.cell.clone())
+    }
+}
+
+/// The report of a fit by name among the fits already evaluated.
+fn find_fit<'r>(ctx: &Ctx, reports: &[&'r Report], name: &str, span: crate::syntax::Span) -> Result<&'r Report, Problem> {
+    let found = reports.iter().copied().find(|r| r.name.eq_ignore_ascii_case(name.trim()) && !r.function.is_empty() && r.host.is_none());
+    match found {
+        Some(r) if r.outcome.is_some() => Ok(r),
+        Some(r) => Err(ctx
+            .err(span, format!("the fit '{}' failed, so there is nothing to use", r.name))
+            .help(format!("fix the request at {} first", r.cell))),
+        None => {
+            let names: Vec<&str> = reports.iter().filter(|r| r.outcome.is_some() && r.host.is_none()).map(|r| r.name.as_str()).collect();
+            let near = closest(name.trim(), names.iter().copied());
+            let help = match near.first() {
+                Some(n) => format!("did you mean {n}? The fits are {}", names.join(", ")),
+                None if names.is_empty() => "give a #linear request a name, such as name=main, and refer to it".to_string(),
+                None => format!("the fits are {} (a fit is named with name=, or by its cell)", names.join(", ")),
+            };
+            Err(ctx.err(span, format!("there is no fit named '{}'", name.trim())).help(help))
+        }
+    }
+}
+
+fn fit_name_arg(a: &crate::syntax::Expr) -> Option<String> {
+    match &a.kind {
+        ExprKind::Name(n) | ExprKind::Quoted(n) => Some(n.clone()),
+        ExprKind::Range(_) => None,
+        _ => None,
+    }
+}
+
+fn new_value(e: &crate::syntax::Expr) -> Option<NewValue> {
+    match &e.kind {
+        ExprKind::Number(x) => Some(NewValue::Number(*x)),
+        ExprKind::Unary { op: UnaryOp::Neg, operand } => match operand.kind {
+            ExprKind::Number(x) => Some(NewValue::Number(-x)),
+            _ => None,
+        },
+        ExprKind::Name(s) | ExprKind::Quoted(s) => Some(NewValue::Text(s.trim().to_string())),
+        _ => None,
+    }
+}
+
+fn stat(r: &Report, key: &str) -> f64 {
+    r.outcome.as_ref().and_then(|o| o.statistic(key)).unwrap_or(f64::NAN)
+}
+
+/// Predicts a fit at model rows: `(ŷ, se_mean, leverage)` per row.
+fn predict_rows(r: &Report, xs: &[Vec<f64>]) -> Result<Vec<(f64, f64, f64)>, String> {
+    let o = r.outcome.as_ref().ok_or("the fit has no outcome")?;
+    let v = o.covariance.as_ref().ok_or_else(|| format!("the fit '{}' (#{}) carries no covariance matrix, so it cannot predict with intervals", r.name, r.function))?;
+    let b: Vec<f64> = o.coefficients.iter().map(|c| c.estimate.unwrap_or(0.0)).collect();
+    let s = stat(r, "rmse");
+    let mut out = Vec::new();
+    for x in xs {
+        if x.len() != b.len() || v.len() != b.len() {
+            return Err(format!("the model row has {} values for {} coefficients", x.len(), b.len()));
+        }
+        let yhat: f64 = x.iter().zip(&b).map(|(a, c)| a * c).sum();
+        let q: f64 = (0..x.len()).map(|i| x[i] * (0..x.len()).map(|j| v[i][j] * x[j]).sum::<f64>()).sum();
+        out.push((yhat, q.max(0.0).sqrt(), q / (s * s)));
+    }
+    Ok(out)
+}
+
+/// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`.
+pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
+    let ctx = Ctx { cell, text };
+    let mut fit_arg = None;
+    let mut given: BTreeMap<String, (NewValue, crate::syntax::Span)> = BTreeMap::new();
+    let mut rows_arg = None;
+    let mut level_arg = None;
+    for a in &req.args {
+        match a {
+            Arg::Positional(e) if fit_arg.is_none() => {
+                let name = fit_name_arg(e).ok_or_else(|| ctx.err(e.span, "#predict's first argument is a fit's name, such as main").help("name a #linear request with name=main and write #predict(main, Light=14)"))?;
+                fit_arg = Some((name, e.span));
+            }
+            Arg::Positional(e) => return Err(ctx.err(e.span, "#predict takes one fit name, then column=value pairs").help("write #predict(main, Light=14, CO2=900)")),
+            Arg::Named { key, value, span } => {
+                let k = key.name.trim().to_lowercase();
+                if (k == "rows" && rows_arg.is_some()) || (k == "level" && level_arg.is_some()) {
+                    return Err(ctx.err(*span, format!("the option {k} is given twice")));
+                }
+                if k == "rows" {
+                    rows_arg = Some(value);
+                } else if k == "level" {
+                    match value.kind {
+                        ExprKind::Number(x) if x > 0.0 && x < 1.0 => level_arg = Some(x),
+                        _ => return Err(ctx.err(value.span, "level= takes a number strictly between 0 and 1, such as level=0.95")),
+                    }
+                } else {
+                    let v = new_value(value).ok_or_else(|| ctx.err(value.span, format!("the value of {} must be a number or a level in double quotes", key.name)))?;
+                    if given.insert(k, (v, *span)).is_some() {
+                        return Err(ctx.err(*span, format!("{} is given twice", key.name)));
+                    }
+                }
+            }
+            Arg::Group { span, .. } => return Err(ctx.err(*span, "#predict takes no group options").help("write #predict(main, Light=14, CO2=900) or #predict(main, rows=Plan!A1:C13)")),
+        }
+    }
+    let Some((fit_name, fit_span)) = fit_arg else {
+        return Err(ctx.err(req.span, "#predict needs the name of a fit").help("write #predict(main, Light=14) where main is the name= of a #linear request"));
+    };
+    let fit = find_fit(&ctx, reports, &fit_name, fit_span)?;
+    let recipe: &Recipe = fit.recipe.as_ref().ok_or_else(|| {
+        ctx.err(fit_span, format!("the fit '{}' names a column by a range or uses a term a new value cannot be given for, so it cannot predict", fit.name))
+            .help("name the fit's columns by their headers to predict from it")
+    })?;
+    if fit.outcome.as_ref().is_none_or(|o| o.covariance.is_none()) {
+        return Err(ctx.err(fit_span, format!("the fit '{}' (#{}) carries no covariance matrix, so it cannot predict with intervals", fit.name, fit.function)));
+    }
+    // The points.
+    let mut points: Vec<(Vec<NewValue>, String)> = Vec::new();
+    match (rows_arg, given.is_empty()) {
+        (Some(v), true) => {
+            let ExprKind::Range(r) = &v.kind else {
+                return Err(ctx.err(v.span, "rows= takes a range with headers in its first row, such as rows=Plan!A1:C13"));
+            };
+            let sheet = r.sheet.clone().unwrap_or_else(|| cell.sheet.clone());
+            let grid = book.sheet(&sheet).ok_or_else(|| ctx.err(v.span, format!("there is no sheet named '{sheet}'")))?;
+            let ext = grid.extent();
+            let (fr, lr) = match (r.start.row, r.end.row) {
+                (Some(a), Some(b)) => (a.min(b), a.max(b)),
+                _ => ext.map(|e| (e.first_row, e.last_row)).unwrap_or((0, 0)),
+            };
+            let (fc, lc) = (r.start.col.min(r.end.col), r.start.col.max(r.end.col));
+            let mut cols: Vec<Option<usize>> = Vec::new();
+            for c in fc..=lc {
+                let h = match grid.value(fr, c) {
+                    Value::Text(t) => t.trim().to_string(),
+                    _ => String::new(),
+                };
+                cols.push(if h.is_empty() { None } else { recipe.input(&h) });
+            }
+            for (i, inp) in recipe.inputs.iter().enumerate() {
+                if !cols.contains(&Some(i)) {
+                    return Err(ctx.err(v.span, format!("the table {} has no column headed {}", CellAddress::new(sheet.clone(), fr, fc), inp.name)).help(format!(
+                        "its first row must name every input of the fit: {}",
+                        recipe.inputs.iter().map(|x| x.name.as_str()).collect::<Vec<_>>().join(", ")
+                    )));
+                }
+            }
+            for row in fr + 1..=lr {
+                let mut vals: Vec<Option<NewValue>> = vec![None; recipe.inputs.len()];
+                let mut any = false;
+                for (k, c) in (fc..=lc).enumerate() {
+                    let Some(i) = cols[k] else { continue };
+                    let at = CellAddress::new(sheet.clone(), row, c);
+                    match grid.value(row, c) {
+                        Value::Number(x) | Value::DateTime(x, _) => vals[i] = Some(NewValue::Number(x)),
+                        Value::Text(t) if !t.trim().is_empty() => vals[i] = Some(NewValue::Text(t.trim().to_string())),
+                        Value::Empty => continue,
+                        _ => return Err(ctx.whole(format!("the cell {at} is neither a number nor a level"))),
+                    }
+                    any = true;
+                }
+                if !any {
+                    continue;
+                }
+                let mut out = Vec::new();
+                for (i, v) in vals.into_iter().enumerate() {
+                    match v {
+                        Some(v) => out.push(v),
+                        None => {
+                            let c = fc + cols.iter().position(|x| *x == Some(i)).unwrap_or(0) as u32;
+                            return Err(ctx.whole(format!("the cell {} (the value of {}) is blank", CellAddress::new(sheet.clone(), row, c), recipe.inputs[i].name)));
+                        }
+                    }
+                }
+                points.push((out, format!("row {}", row + 1)));
+            }
+            if points.is_empty() {
+                return Err(ctx.err(v.span, "the table of new values has no rows below its headers"));
+            }
+        }
+        (Some(v), false) => return Err(ctx.err(v.span, "give either column=value pairs or rows=, not both")),
+        (None, true) => {
+            return Err(ctx.err(req.span, "#predict needs the new values").help(format!(
+                "give every input of the fit as column=value, such as #predict({}, {}), or a table with rows=",
+                fit.name,
+                recipe.inputs.iter().map(|i| format!("{}=…", i.name)).collect::<Vec<_>>().join(", ")
+            )))
+        }
+        (None, false) => {
+            let plain: BTreeMap<String, NewValue> = given.iter().map(|(k, v)| (k.clone(), v.0.clone())).collect();
+            let (vals, unknown) = recipe.values_from(&plain);
+            if let Some(u) = unknown.first() {
+                let names: Vec<&str> = recipe.inputs.iter().map(|i| i.name.as_str()).collect();
+                let near = closest(u, names.iter().copied());
+                let help = match near.first() {
+                    Some(n) => format!("did you mean {n}? The fit's columns are {}", names.join(", ")),
+                    None => format!("the fit's columns are {}", names.join(", ")),
+                };
+                // Invariant: `u` is one of the keys given.
+                return Err(ctx.err(given[u].1, format!("the fit '{}' uses no column '{u}'", fit.name)).help(help));
+            }
+            let missing: Vec<&str> = recipe.inputs.iter().zip(&vals).filter(|(_, v)| v.is_none()).map(|(i, _)| i.name.as_str()).collect();
+            if !missing.is_empty() {
+                return Err(ctx.err(req.span, format!("#predict needs a value for every column of the fit; missing: {}", missing.join(", "))).help("add them as column=value"));
+            }
+            points.push((vals.into_iter().flatten().collect(), String::new()));
+        }
+    }
+    let level = level_arg.unwrap_or(fit.level);
+    let df = stat(fit, "df_resid");
+    let s = stat(fit, "rmse");
+    let t = -t_quantile(0.5 * (1.0 - level), df);
+    let max_lev = fit.outcome.as_ref().and_then(|o| o.rows.iter().find(|c| c.key == "leverage")).map(|c| c.values.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max));
+    let mut xs = Vec::new();
+    for (vals, label) in &points {
+        let x = recipe.row(vals).map_err(|e| {
+            let at = if label.is_empty() { String::new() } else { format!(" ({label})") };
+            ctx.whole(format!("{e}{at}"))
+        })?;
+        xs.push(x);
+    }
+    let pred = predict_rows(fit, &xs).map_err(|e| ctx.whole(e))?;
+    let mut rows = Vec::new();
+    let mut warnings = Vec::new();
+    for ((vals, label), (yhat, se, lev)) in points.iter().zip(pred) {
+        let se_new = (s * s + se * se).sqrt();
+        let mut outside = recipe.outside(vals);
+        if let Some(m) = max_lev {
+            if lev > m * (1.0 + 1e-9) {
+                outside.push(format!("its leverage {lev:.4} exceeds the largest in the data ({m:.4})"));
+            }
+        }
+        if !outside.is_empty() {
+            let at = if label.is_empty() { String::new() } else { format!(" at {label}") };
+            warnings.push(Problem::warning(format!("the point{at} lies outside the data the fit was made from: {}; the prediction is an extrapolation", outside.join("; "))).at(cell.clone()));
+        }
+        rows.push(PredictionRow {
+            values: vals.clone(),
+            predicted: yhat,
+            se_mean: se,
+            mean_lower: yhat - t * se,
+            mean_upper: yhat + t * se,
+            new_lower: yhat - t * se_new,
+            new_upper: yhat + t * se_new,
+            leverage: lev,
+            outside,
+        });
+    }
+    let outcome = HostOutcome::Prediction(Prediction { fit: fit.name.clone(), inputs: recipe.inputs.iter().map(|i| i.name.clone()).collect(), level, rows });
+    Ok(HostResult { outcome, warnings, response: fit.response.clone(), fits: vec![fit.name.clone()], rows_used: fit.rows_used, level })
+}
+
+fn norm(s: &str) -> String {
+    s.chars().filter(|c| !c.is_whitespace()).collect::<String>().to_lowercase()
+}
+
+/// Evaluates `#compare(fit, fit, …)`.
+pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
+    let ctx = Ctx { cell, text };
+    let mut fits: Vec<&Report> = Vec::new();
+    for a in &req.args {
+        match a {
+            Arg::Positional(e) => {
+                let name = fit_name_arg(e).ok_or_else(|| ctx.err(e.span, "#compare takes the names of fits, such as #compare(main, curved)"))?;
+                let f = find_fit(&ctx, reports, &name, e.span)?;
+                if fits.iter().any(|x| std::ptr::eq(*x, f)) {
+                    return Err(ctx.err(e.span, format!("the fit '{}' is named twice", f.name)));
+                }
+                fits.push(f);
+            }
+            other => return Err(ctx.err(other.span(), "#compare takes only fit names").help("write #compare(main, curved, bays)")),
+        }
+    }
+    if fits.len() < 2 {
+        return Err(ctx.err(req.span, "#compare needs at least two fits").help("write #compare(main, curved)"));
+    }
+    let first = fits[0];
+    for f in &fits[1..] {
+        if norm(&f.response) != norm(&first.response) {
+            return Err(ctx.whole(format!(
+                "the fits '{}' and '{}' explain different responses ({} and {}); only fits of one response can be compared",
+                first.name, f.name, first.response, f.response
+            )));
+        }
+        let same_rows = match (&first.place, &f.place) {
+            (Some(a), Some(b)) => a.sheet == b.sheet && a.rows == b.rows,
+            _ => false,
+        };
+        if !same_rows {
+            return Err(ctx.whole(format!(
+                "the fits '{}' ({} rows) and '{}' ({} rows) use different rows (a column with blanks in one leaves rows out); AIC, BIC and F tests compare only fits on the same rows",
+                first.name, first.rows_used, f.name, f.rows_used
+            ))
+            .help("fit both on the same rows, for example by filling the blanks or by leaving those rows out of the table"));
+        }
+    }
+    let mut terms: Vec<String> = Vec::new();
+    for f in &fits {
+        for c in &f.outcome.as_ref().map(|o| o.coefficients.clone()).unwrap_or_default() {
+            if !terms.contains(&c.term) {
+                terms.push(c.term.clone());
+            }
+        }
+    }
+    let compared: Vec<ComparedFit> = fits
+        .iter()
+        .map(|f| {
+            let o = f.outcome.as_ref();
+            let coefs = o.map(|o| o.coefficients.clone()).unwrap_or_default();
+            ComparedFit {
+                name: f.name.clone(),
+                n: stat(f, "n"),
+                parameters: stat(f, "parameters"),
+                r_squared: stat(f, "r_squared"),
+                adj_r_squared: stat(f, "adj_r_squared"),
+                rmse: stat(f, "rmse"),
+                aic: stat(f, "aic"),
+                bic: stat(f, "bic"),
+                coefficients: terms.iter().map(|t| coefs.iter().find(|c| &c.term == t).map(|c| (c.estimate, c.std_error))).collect(),
+            }
+        })
+        .collect();
+    let lowest_aic = (0..compared.len()).min_by(|&a, &b| compared[a].aic.total_cmp(&compared[b].aic)).unwrap_or(0);
+    let mut nested = Vec::new();
+    let term_set = |f: &Report| -> Vec<String> { f.outcome.as_ref().map(|o| o.coefficients.iter().map(|c| c.term.clone()).collect()).unwrap_or_default() };
+    for a in &fits {
+        for b in &fits {
+            let (ta, tb) = (term_set(a), term_set(b));
+            if std::ptr::eq(*a, *b) || ta.len() >= tb.len() || !ta.iter().all(|t| tb.contains(t)) {
+                continue;
+            }
+            let (sse0, df0, sse1, df1) = (stat(a, "ss_resid"), stat(a, "df_resid"), stat(b, "ss_resid"), stat(b, "df_resid"));
+            let dn = df0 - df1;
+            if dn <= 0.0 || df1 <= 0.0 {
+                continue;
+            }
+            let f = ((sse0 - sse1) / dn) / (sse1 / df1);
+            nested.push(NestedTest { smaller: a.name.clone(), larger: b.name.clone(), f, df_num: dn, df_den: df1, p_value: f_sf(f, dn, df1) });
+        }
+    }
+    let outcome = HostOutcome::Comparison(Comparison { response: first.response.clone(), fits: compared, lowest_aic, nested, terms });
+    Ok(HostResult { outcome, warnings: Vec::new(), response: first.response.clone(), fits: fits.iter().map(|f| f.name.clone()).collect(), rows_used: first.rows_used, level: first.level })
+}
