@@ -302,7 +302,8 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     let bytes = std::fs::read(&config.input).map_err(|source| RunError::Input { path: config.input.clone(), source })?;
     let sha = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
     drop(bytes);
-    let (book, mut summary) = evaluate(&config.input, registry)?;
+    let (book, format) = read::read_workbook_with_format(&config.input).map_err(RunError::Read)?;
+    let mut summary = evaluate_book(&book, &file_label(&config.input), registry);
     let requests: HashSet<CellAddress> = summary.reports.iter().map(|r| r.cell.clone()).collect();
     for p in unwritable_cells(&book, &requests) {
         summary.problems.push(p.in_file(file_label(&config.input)));
@@ -317,8 +318,9 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         time: iso_time(created),
     };
     let mut laid = layout::lay_out(&book, &summary.reports, &info);
-    let ext = config.input.extension().map(|e| e.to_string_lossy().to_lowercase()).unwrap_or_default();
-    laid.keep_formulas = ext != "ods";
+    // Told from the content, not the name: an ods saved as .xlsx still has
+    // OpenFormula syntax, which would be a broken formula in xlsx.
+    laid.keep_formulas = format != read::Format::Ods;
     write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
     summary.output = Some(out);
     Ok(summary)
