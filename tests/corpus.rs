@@ -353,6 +353,7 @@ fn check(c: &Case) -> Vec<String> {
 #[test]
 fn the_corpus_has_at_least_forty_cases_with_unique_names() {
     let cs = cases();
+    println!("{} corpus cases", cs.len());
     assert!(cs.len() >= 40, "{} cases", cs.len());
     let mut names: Vec<&str> = cs.iter().map(|c| c.name).collect();
     names.sort();
