@@ -58,7 +58,7 @@ fn xlsx(sheets: &[S]) -> Vec<u8> {
                 C::N(x) => ws.write_number(*r, c, *x).map(|_| ()),
                 C::T(x) => ws.write_string(*r, c, x).map(|_| ()),
                 C::F(f, res) => ws.write_formula(*r, c, Formula::new(*f).set_result(*res)).map(|_| ()),
-                C::Date(y, m, d) => ws.write_datetime_with_format(*r, c, &ExcelDateTime::from_ymd(*y, *m, *d).unwrap(), &date).map(|_| ()),
+                C::Date(y, m, d) => ws.write_datetime_with_format(*r, c, ExcelDateTime::from_ymd(*y, *m, *d).unwrap(), &date).map(|_| ()),
             }
             .unwrap();
         }

@@ -102,12 +102,8 @@ proptest! {
             let (r, col) = (i as u32 / width, i as u32 % width);
             match c {
                 Some((Some(x), _, _)) => g.set_number(r, col, *x),
-                Some((_, Some(t), _)) => {
-                    // An empty text is no cell at all in xlsx.
-                    if !t.is_empty() {
-                        g.set_text(r, col, t);
-                    }
-                }
+                // An empty text is no cell at all in xlsx.
+                Some((_, Some(t), _)) if !t.is_empty() => g.set_text(r, col, t),
                 Some((_, _, Some(s))) => g.set(r, col, *s),
                 _ => {}
             }
