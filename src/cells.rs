@@ -194,7 +194,7 @@ pub enum Stored {
     Empty,
     /// A number.
     Number(f64),
-    /// Text, by index into [`Grid::strings`].
+    /// Text, by index into the grid's string table.
     Text(u32),
     /// A boolean.
     Bool(bool),

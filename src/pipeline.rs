@@ -225,7 +225,7 @@ fn evaluate_one(
     report.level = resolved.request.level;
     report.rows_used = resolved.request.rows();
     report.rows_left_out = resolved.left_out.total();
-    let outcome = match fit.fit(&resolved.request) {
+    let mut outcome = match fit.fit(&resolved.request) {
         Ok(o) => o,
         Err(e) => {
             let mut p = Problem::error(e.message.clone()).at(f.cell.clone());
@@ -237,13 +237,21 @@ fn evaluate_one(
         let p = Problem::error(format!("the fit #{fname} returned a malformed result: {why}")).at(f.cell.clone());
         return fail(report, p);
     }
+    // Warnings about one row: name the row by its place on its sheet.
+    let pl = &resolved.placement;
+    for w in std::mem::take(&mut outcome.row_warnings) {
+        let place = match pl.rows.get(w.row) {
+            Some(r) => format!("row {} of {}", r + 1, pl.sheet),
+            None => format!("data row {}", w.row + 1),
+        };
+        outcome.warnings.push(w.text.replace("{row}", &place));
+    }
     let mut problems = resolved.warnings.clone();
     for w in &outcome.warnings {
         problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
     }
     report.messages = problems.iter().map(|p| p.one_line()).collect();
     report.status = if problems.is_empty() { Status::Ok } else { Status::Warning };
-    let pl = &resolved.placement;
     report.place = Some(RowsPlace {
         sheet: pl.sheet.clone(),
         header_row: pl.header_row,

@@ -129,6 +129,25 @@ pub struct Column {
     pub term: String,
     /// One value per row used, all finite.
     pub values: Vec<f64>,
+    /// When the column is a whole power of one base column (`Light^2`, or
+    /// `Light` itself beside `Light^2`): which base, which power, and the
+    /// base's values, so a fit can form the powers itself in a better
+    /// conditioned basis. `values` still holds the power, so a fit that
+    /// ignores this field is correct (if less accurate). Optional in the
+    /// JSON (absent means "not a power"), so protocol version 1 is unchanged.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub power: Option<PowerOf>,
+}
+
+/// "Power `exponent` of the base column `base`" (see [`Column::power`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PowerOf {
+    /// The base column's label as typed (`Light`).
+    pub base: String,
+    /// The power, at least 1.
+    pub exponent: u32,
+    /// The base column's values, one per row used.
+    pub base_values: Vec<f64>,
 }
 
 /// A fully resolved request: numbers only, never cell addresses.
@@ -177,6 +196,14 @@ pub struct Coefficient {
     pub lower: Option<f64>,
     /// Upper end of the confidence interval.
     pub upper: Option<f64>,
+    /// Variance inflation factor `1/(1 − R²)` of the term's column on the
+    /// other columns; `None` for the intercept and aliased terms.
+    #[serde(default)]
+    pub vif: Option<f64>,
+    /// Standardized coefficient `estimate × s_x / s_y`; `None` for the
+    /// intercept and aliased terms.
+    #[serde(default)]
+    pub standardized: Option<f64>,
 }
 
 /// A named statistic of a fit.
@@ -216,6 +243,29 @@ pub struct FitOutcome {
     pub warnings: Vec<String>,
     /// Which R² the fit reports and similar remarks.
     pub notes: Vec<String>,
+    /// Which standard errors the coefficient table uses (`classic`, `HC3`,
+    /// …), shown beside every coefficient; `None` when the fit does not say.
+    #[serde(default)]
+    pub standard_errors: Option<String>,
+    /// Statistics that belong to one row (the largest leverage, …): the
+    /// statistic's key and the row's index among the rows sent. The host
+    /// shows the row's place on its sheet ("row 57") beside the value.
+    #[serde(default)]
+    pub statistic_rows: BTreeMap<String, usize>,
+    /// Warnings about one row, which the fit knows only by its index among
+    /// the rows sent. The host replaces `{row}` in the text with the row's
+    /// place ("row 57 of Weekly") and adds the result to the warnings.
+    #[serde(default)]
+    pub row_warnings: Vec<RowWarning>,
+}
+
+/// A warning about one row of the data.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RowWarning {
+    /// The row's index among the rows sent (zero-based).
+    pub row: usize,
+    /// The warning, with `{row}` where the row is to be named.
+    pub text: String,
 }
 
 impl FitOutcome {
@@ -232,6 +282,16 @@ impl FitOutcome {
         for c in &self.rows {
             if c.values.len() != n {
                 return Err(format!("the column '{}' has {} values for {} rows", c.label, c.values.len(), n));
+            }
+        }
+        for (key, &row) in &self.statistic_rows {
+            if row >= n {
+                return Err(format!("the statistic '{key}' names row {row} of {n}"));
+            }
+        }
+        for w in &self.row_warnings {
+            if w.row >= n {
+                return Err(format!("a warning names row {} of {}", w.row, n));
             }
         }
         for c in &self.coefficients {

@@ -15,7 +15,14 @@
 //! Memory: xlsx and xlsb sheets are streamed cell by cell into a grid sized
 //! once from the sheet's dimension record (no per-cell allocation for
 //! numbers); xls and ods sheets come through calamine's dense range, which
-//! calamine builds before we see it.
+//! calamine builds before we see it (xls sheets are measured first, see
+//! `xls_guard`).
+//!
+//! Robustness: malformed input gives a [`ReadError`], not a panic or an
+//! endless wait. calamine's errors are translated; its panics on malformed
+//! content are caught (see `read_guarded`); its OpenDocument reader, which
+//! can loop forever on a cut document, runs on a watched thread (see
+//! `open_ods_watched`).
 
 use std::fmt;
 use std::fs::File;
@@ -164,7 +171,7 @@ fn group_thousands(n: u64) -> String {
     let digits = n.to_string();
     let mut out = String::new();
     for (i, ch) in digits.chars().enumerate() {
-        if i > 0 && (digits.len() - i) % 3 == 0 {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
             out.push(',');
         }
         out.push(ch);
@@ -279,18 +286,58 @@ fn extension_of(name: &str) -> Option<String> {
 
 /// Runs the reader under `catch_unwind`. calamine parses untrusted binary
 /// and XML content and some malformed inputs make it index out of bounds
-/// (for example a short xlsb dimension record); such a panic means the file
-/// is malformed, so it becomes [`ReadError::Damaged`] instead of ending the
-/// program. The default panic hook still prints the panic to stderr; the
-/// CLI may install a quieter one. (With `panic = "abort"` nothing is caught.)
+/// (fuzzing its xls reader with a few flipped bytes does so about once in
+/// fifty tries); such a panic means the file is malformed, so it becomes
+/// [`ReadError::Damaged`], with the panic's message as its source, instead
+/// of ending the program. (With `panic = "abort"` nothing is caught.)
 fn read_guarded<RS: Read + Seek>(
     head: &[u8],
     ext: Option<&str>,
     open: impl Fn() -> std::io::Result<RS>,
 ) -> Result<(Workbook, Format), Fault> {
+    let _quiet = QuietPanics::begin();
     match catch_unwind(AssertUnwindSafe(|| read_any(head, ext, &open))) {
         Ok(result) => result,
         Err(payload) => Err(Fault::Damaged(Some(Box::new(ReaderPanic(panic_message(&*payload)))))),
+    }
+}
+
+thread_local! {
+    /// Whether this thread is inside the reader, whose panics are caught.
+    static IN_READER: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// Keeps caught reader panics off stderr while alive.
+///
+/// The panic hook prints a panic before `catch_unwind` sees it, so a caught
+/// reader panic would still print "thread … panicked" to the user. On first
+/// use this installs, once per process, a hook that stays silent on threads
+/// inside the reader and passes every other panic to the hook that was in
+/// place before. The panic's message is not lost: it is the source of the
+/// resulting [`ReadError::Damaged`]. This is the one piece of process-wide
+/// state the module touches.
+struct QuietPanics {
+    was_inside: bool,
+}
+
+impl QuietPanics {
+    fn begin() -> Self {
+        static INSTALL: std::sync::Once = std::sync::Once::new();
+        INSTALL.call_once(|| {
+            let previous = std::panic::take_hook();
+            std::panic::set_hook(Box::new(move |info| {
+                if !IN_READER.with(|inside| inside.get()) {
+                    previous(info);
+                }
+            }));
+        });
+        QuietPanics { was_inside: IN_READER.with(|inside| inside.replace(true)) }
+    }
+}
+
+impl Drop for QuietPanics {
+    fn drop(&mut self) {
+        IN_READER.with(|inside| inside.set(self.was_inside));
     }
 }
 
@@ -353,7 +400,7 @@ enum Book<RS: Read + Seek> {
     Xls(Xls<RS>),
     /// calamine's OpenDocument reader parses everything when it opens and
     /// keeps no reader, so it is opened over an owned copy of the bytes
-    /// (see [`open_ods_watched`]).
+    /// (see `open_ods_watched`).
     Ods(Ods<Cursor<Vec<u8>>>),
 }
 
@@ -406,6 +453,10 @@ fn read_any<RS: Read + Seek>(
 /// An OLE compound file is an xls workbook, or an xlsx/xlsb encrypted with
 /// a password (the encrypted package lives in such a file).
 fn open_compound<RS: Read + Seek>(open: &dyn Fn() -> std::io::Result<RS>) -> Result<Book<RS>, Fault> {
+    let mut bytes = Vec::new();
+    open().and_then(|mut rs| rs.read_to_end(&mut bytes)).map_err(Fault::Io)?;
+    xls_guard::check(&bytes)?;
+    drop(bytes);
     let xls_err = match Xls::new(open().map_err(Fault::Io)?) {
         Ok(b) => return Ok(Book::Xls(b)),
         Err(XlsError::Password) => return Err(Fault::Password),
@@ -421,6 +472,240 @@ fn open_compound<RS: Read + Seek>(open: &dyn Fn() -> std::io::Result<RS>) -> Res
             Err(Fault::NotAWorkbook("a compound document that holds no workbook (such as a word-processor file)"))
         }
         _ => Err(Fault::Damaged(Some(Box::new(xls_err)))),
+    }
+}
+
+/// A size check of xls sheets before calamine reads them.
+///
+/// calamine's xls reader builds each sheet as one dense rectangle around
+/// its cells, and reserves room for the rectangle a sheet's Dimensions
+/// record declares, before we see a cell. Two cells far apart, or a wild
+/// Dimensions record, make it ask for tens of gigabytes, and a failed
+/// allocation ends the process (no panic to catch). xls content is not
+/// compressed, so the cell positions can be read cheaply first: this module
+/// finds the `Workbook` stream in the compound file ([MS-CFB] §2.2–2.6),
+/// walks each sheet's records ([MS-XLS] §2.1.4) the way calamine does, and
+/// refuses a sheet whose cells or declared dimensions span more than
+/// [`MAX_CELLS`]. Content it cannot follow is left to calamine, which then
+/// reports it.
+mod xls_guard {
+    use super::{Fault, MAX_CELLS};
+    use crate::cells::CellRange;
+
+    const END_OF_CHAIN: u32 = 0xFFFF_FFFE;
+    const MAX_REGULAR: u32 = 0xFFFF_FFFA;
+
+    fn u16_at(b: &[u8], at: usize) -> Option<u16> {
+        Some(u16::from_le_bytes(b.get(at..at + 2)?.try_into().ok()?))
+    }
+
+    fn u32_at(b: &[u8], at: usize) -> Option<u32> {
+        Some(u32::from_le_bytes(b.get(at..at + 4)?.try_into().ok()?))
+    }
+
+    /// Refuses an xls whose sheets span more than [`MAX_CELLS`].
+    pub(super) fn check(file: &[u8]) -> Result<(), Fault> {
+        let Some(stream) = workbook_stream(file) else { return Ok(()) };
+        for (name, extent, declared) in sheet_extents(&stream) {
+            let area = |r: &CellRange| u64::from(r.rows()) * u64::from(r.cols());
+            if let Some(e) = extent.filter(|e| area(e) > MAX_CELLS as u64) {
+                return Err(Fault::TooLarge { sheet: name, extent: e });
+            }
+            if declared > MAX_CELLS as u64 {
+                return Err(Fault::Sheet {
+                    sheet: name,
+                    reason: format!(
+                        "its dimension record declares {declared} cells, more than the {} plumb reads from one sheet; the file is damaged, or the sheet must be split",
+                        super::group_thousands(MAX_CELLS as u64)
+                    ),
+                    source: None,
+                });
+            }
+        }
+        Ok(())
+    }
+
+    /// The bytes of the chain of units from `start`, `len` bytes at most; a
+    /// loop in the chain or a unit beyond the file gives `None`.
+    fn chain<'a>(start: u32, unit: &dyn Fn(u32) -> Option<&'a [u8]>, table: &[u32], len: usize) -> Option<Vec<u8>> {
+        let mut out = Vec::new();
+        let mut id = start;
+        let mut steps = 0;
+        while id != END_OF_CHAIN && out.len() < len {
+            steps += 1;
+            if steps > table.len() + 1 {
+                return None;
+            }
+            out.extend_from_slice(unit(id)?);
+            id = *table.get(id as usize)?;
+        }
+        out.truncate(len);
+        Some(out)
+    }
+
+    /// The content of the `Workbook` (or BIFF5 `Book`) stream.
+    fn workbook_stream(file: &[u8]) -> Option<Vec<u8>> {
+        let sector_size = match u16_at(file, 30)? {
+            9 => 512usize,
+            12 => 4096,
+            _ => return None,
+        };
+        let sector = |id: u32| -> Option<&[u8]> {
+            let start = (id as usize + 1).checked_mul(sector_size)?;
+            file.get(start..start + sector_size)
+        };
+        let n_sectors = file.len() / sector_size;
+        // DIFAT: 109 entries in the header, then a chain of DIFAT sectors.
+        let mut difat: Vec<u32> = (0..109).filter_map(|i| u32_at(file, 76 + 4 * i)).collect();
+        let mut next = u32_at(file, 68)?;
+        let mut guard = 0;
+        while next < MAX_REGULAR {
+            guard += 1;
+            if guard > n_sectors {
+                return None;
+            }
+            let s = sector(next)?;
+            let per = sector_size / 4 - 1;
+            difat.extend((0..per).filter_map(|i| u32_at(s, 4 * i)));
+            next = u32_at(s, 4 * per)?;
+        }
+        let mut fat = Vec::new();
+        for id in difat.into_iter().filter(|id| *id < MAX_REGULAR) {
+            let s = sector(id)?;
+            fat.extend((0..sector_size / 4).filter_map(|i| u32_at(s, 4 * i)));
+        }
+        let dirs = chain(u32_at(file, 48)?, &sector, &fat, usize::MAX)?;
+        let entries: Vec<&[u8]> = dirs.chunks_exact(128).collect();
+        let root = entries.first()?;
+        let named = |want: &str| {
+            entries.iter().find(|e| {
+                let len = (u16_at(e, 64).unwrap_or(0) as usize).min(64);
+                let units: Vec<u16> = (0..len / 2).filter_map(|i| u16_at(e, 2 * i)).take_while(|u| *u != 0).collect();
+                String::from_utf16_lossy(&units).eq_ignore_ascii_case(want)
+            })
+        };
+        let entry = named("Workbook").or_else(|| named("Book"))?;
+        let (start, size) = (u32_at(entry, 116)?, u32_at(entry, 120)? as usize);
+        if size >= 4096 {
+            return chain(start, &sector, &fat, size);
+        }
+        // A small stream lives in 64-byte units of the mini stream, which is
+        // the root entry's stream, mapped by the mini FAT.
+        let ministream = chain(u32_at(root, 116)?, &sector, &fat, u32_at(root, 120)? as usize)?;
+        let minifat_bytes = chain(u32_at(file, 60)?, &sector, &fat, usize::MAX)?;
+        let minifat: Vec<u32> = (0..minifat_bytes.len() / 4).filter_map(|i| u32_at(&minifat_bytes, 4 * i)).collect();
+        let mini = |id: u32| ministream.get(id as usize * 64..id as usize * 64 + 64);
+        chain(start, &mini, &minifat, size)
+    }
+
+    /// Each sheet's name, the rectangle around its cells and the cell count
+    /// its Dimensions records declare, following calamine's walk: from each
+    /// BoundSheet8 offset, records up to the sheet's EOF, skipping nested
+    /// substreams.
+    fn sheet_extents(stream: &[u8]) -> Vec<(String, Option<CellRange>, u64)> {
+        let records = |from: usize| {
+            let mut at = from;
+            std::iter::from_fn(move || {
+                let typ = u16_at(stream, at)?;
+                let len = u16_at(stream, at + 2)? as usize;
+                let data = stream.get(at + 4..at + 4 + len)?;
+                at += 4 + len;
+                Some((typ, data))
+            })
+        };
+        let mut sheets = Vec::new();
+        for (typ, data) in records(0) {
+            match typ {
+                0x0085 => {
+                    let Some(pos) = u32_at(data, 0) else { continue };
+                    let name = data.get(6..).map(short_string).unwrap_or_default();
+                    sheets.push((pos as usize, name));
+                }
+                0x000A => break,
+                _ => {}
+            }
+        }
+        let mut out = Vec::new();
+        for (pos, name) in sheets {
+            let mut extent: Option<CellRange> = None;
+            let mut declared = 0u64;
+            let mut add = |row: u16, col: u16| {
+                let (r, c) = (u32::from(row), u32::from(col));
+                extent = Some(match extent {
+                    None => CellRange { first_row: r, first_col: c, last_row: r, last_col: c },
+                    Some(e) => CellRange {
+                        first_row: e.first_row.min(r),
+                        first_col: e.first_col.min(c),
+                        last_row: e.last_row.max(r),
+                        last_col: e.last_col.max(c),
+                    },
+                });
+            };
+            let (mut seen_bof, mut depth) = (false, 0usize);
+            for (typ, data) in records(pos) {
+                if depth > 0 {
+                    match typ {
+                        0x0809 => depth += 1,
+                        0x000A => depth -= 1,
+                        _ => {}
+                    }
+                    continue;
+                }
+                let cell = || Some((u16_at(data, 0)?, u16_at(data, 2)?));
+                match typ {
+                    0x0809 if seen_bof => depth += 1,
+                    0x0809 => seen_bof = true,
+                    0x000A => break,
+                    0x0200 => declared = declared.max(dimension_cells(data)),
+                    0x0203 | 0x0204 | 0x00D6 | 0x0205 | 0x027E | 0x00FD | 0x0006 => {
+                        if let Some((r, c)) = cell() {
+                            add(r, c);
+                        }
+                    }
+                    0x00BD => {
+                        if let (Some((r, c)), Some(last)) = (cell(), data.len().checked_sub(2).and_then(|at| u16_at(data, at))) {
+                            add(r, c);
+                            add(r, last);
+                        }
+                    }
+                    _ => {}
+                }
+            }
+            out.push((name, extent, declared));
+        }
+        out
+    }
+
+    /// The cell count a Dimensions record declares, as calamine reads it
+    /// (BIFF5 16-bit or BIFF8 32-bit rows, end exclusive).
+    fn dimension_cells(d: &[u8]) -> u64 {
+        let parts = match d.len() {
+            10 => (u16_at(d, 0).map(u32::from), u16_at(d, 2).map(u32::from), u16_at(d, 4), u16_at(d, 6)),
+            14 | 16 => (u32_at(d, 0), u32_at(d, 4), u16_at(d, 8), u16_at(d, 10)),
+            _ => return 0,
+        };
+        let (Some(rf), Some(rl), Some(cf), Some(cl)) = parts else { return 0 };
+        let cf = if cf > 0xFF || cl < cf { 0 } else { cf };
+        if rl == 0 || cl == 0 {
+            return 1;
+        }
+        let rows = u64::from(rl - 1).wrapping_sub(u64::from(rf)).wrapping_add(1);
+        let cols = u64::from(cl - 1).wrapping_sub(u64::from(cf)).wrapping_add(1);
+        rows.saturating_mul(cols)
+    }
+
+    /// A BoundSheet8 name: a byte count, then (BIFF8) a flag for 16-bit
+    /// characters, then the characters. Best effort: it only names a sheet
+    /// in a message.
+    fn short_string(d: &[u8]) -> String {
+        let Some(&n) = d.first() else { return String::new() };
+        match d.get(1) {
+            Some(1) => {
+                let units: Vec<u16> = (0..n as usize).filter_map(|i| u16_at(d, 2 + 2 * i)).collect();
+                String::from_utf16_lossy(&units)
+            }
+            _ => d.get(2..2 + n as usize).map(|b| b.iter().map(|&c| char::from(c)).collect()).unwrap_or_default(),
+        }
     }
 }
 
@@ -508,6 +793,9 @@ fn open_zip<RS: Read + Seek>(ext: Option<&str>, open: &dyn Fn() -> std::io::Resu
 const ODS_BASE_SECONDS: u64 = 15;
 const ODS_SECONDS_PER_MB: u64 = 2;
 
+/// What calamine's OpenDocument reader returned, when it returned.
+type OdsOpened = Result<Ods<Cursor<Vec<u8>>>, OdsError>;
+
 /// Opens an OpenDocument spreadsheet on a watched thread.
 ///
 /// calamine 0.38's OpenDocument reader never returns on some damaged
@@ -518,7 +806,7 @@ const ODS_SECONDS_PER_MB: u64 = 2;
 /// reported as damaged. The stalled thread cannot be stopped and keeps a
 /// core busy until the program exits. A panic on that thread is caught
 /// there and reported the same way as one on ours.
-fn open_ods_watched<RS: Read + Seek>(mut rs: RS) -> Result<Result<Ods<Cursor<Vec<u8>>>, OdsError>, Fault> {
+fn open_ods_watched<RS: Read + Seek>(mut rs: RS) -> Result<OdsOpened, Fault> {
     let mut bytes = Vec::new();
     rs.seek(std::io::SeekFrom::Start(0)).map_err(Fault::Io)?;
     rs.read_to_end(&mut bytes).map_err(Fault::Io)?;
@@ -526,9 +814,10 @@ fn open_ods_watched<RS: Read + Seek>(mut rs: RS) -> Result<Result<Ods<Cursor<Vec
     open_ods_bytes_watched(bytes, limit)
 }
 
-fn open_ods_bytes_watched(bytes: Vec<u8>, limit: Duration) -> Result<Result<Ods<Cursor<Vec<u8>>>, OdsError>, Fault> {
+fn open_ods_bytes_watched(bytes: Vec<u8>, limit: Duration) -> Result<OdsOpened, Fault> {
     let (tx, rx) = mpsc::channel();
     let spawned = std::thread::Builder::new().name("plumb-ods-reader".into()).spawn(move || {
+        let _quiet = QuietPanics::begin();
         let result = catch_unwind(AssertUnwindSafe(|| Ods::new(Cursor::new(bytes))));
         // The receiver may have given up waiting; nothing is left to tell.
         let _ = tx.send(result.map_err(|payload| panic_message(&*payload)));
@@ -706,15 +995,22 @@ fn grid_from_ranges(
     let mut b = SheetBuilder::new(name, hint);
     if let Some((r0, c0)) = values.start() {
         for (r, c, v) in values.used_cells() {
-            b.put(r0 + r as u32, c0 + c as u32, value_of_data(v, is_1904))?;
+            b.put(offset(r0, r), offset(c0, c), value_of_data(v, is_1904))?;
         }
     }
     if let Some((r0, c0)) = formulas.start() {
         for (r, c, f) in formulas.used_cells() {
-            b.put_formula(r0 + r as u32, c0 + c as u32, f)?;
+            b.put_formula(offset(r0, r), offset(c0, c), f)?;
         }
     }
     b.finish()
+}
+
+/// An absolute coordinate from a range start and a relative index; a sum
+/// past `u32` saturates, and the builder then refuses it as beyond the
+/// formats' limits.
+fn offset(start: u32, relative: usize) -> u32 {
+    u32::try_from(relative).map_or(u32::MAX, |r| start.saturating_add(r))
 }
 
 /// OpenDocument keeps a formula's error result as text (LibreOffice writes
@@ -1318,6 +1614,12 @@ mod tests {
             Err(_) => panic!("expected damage from a stalled reader, got another fault"),
             Ok(_) => panic!("expected damage from a stalled reader, got a workbook"),
         }
+    }
+
+    #[test]
+    fn errors_cross_threads() {
+        fn send_sync<T: Send + Sync + 'static>() {}
+        send_sync::<ReadError>();
     }
 
     #[test]

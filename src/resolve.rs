@@ -10,7 +10,7 @@
 
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::{closest, Problem};
-use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, ParamKind, PROTOCOL_VERSION};
+use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, ParamKind, PowerOf, PROTOCOL_VERSION};
 use crate::syntax::{self, Arg, BinOp, Expr, ExprKind, RangeRef, Request, Span, UnaryOp};
 use std::collections::{BTreeMap, BTreeSet, HashSet};
 
@@ -153,7 +153,13 @@ struct Num {
     why: Vec<Why>,
     /// The source cell of the first unusable row per reason.
     first_bad: BTreeMap<Why, CellAddress>,
+    /// When these values are `base^exponent` for a whole exponent: the
+    /// base's label and values (before rows are dropped).
+    power: Option<Box<(String, u32, Vec<f64>)>>,
 }
+
+/// The largest whole exponent recorded as a power of a base column.
+const MAX_POWER: f64 = 30.0;
 
 impl Num {
     fn merge_why(&mut self, other: &Num) {
@@ -329,7 +335,7 @@ fn read_column(grid: &Grid, col: u32, rows: &[u32], name: &str) -> Factor {
             .collect();
         return Factor::Cat(Cat { name: name.to_string(), levels, sheet: grid.name.clone(), col });
     }
-    let mut num = Num { values: Vec::with_capacity(rows.len()), why: Vec::with_capacity(rows.len()), first_bad: BTreeMap::new() };
+    let mut num = Num { values: Vec::with_capacity(rows.len()), why: Vec::with_capacity(rows.len()), first_bad: BTreeMap::new(), power: None };
     for &r in rows {
         let v = grid.value(r, col);
         let (x, why) = match v {
@@ -478,7 +484,7 @@ impl Ctx<'_> {
             }
             ExprKind::Number(x) => Ok(Factor::Num(
                 label,
-                Num { values: vec![*x; frame.rows.len()], why: vec![Why::Ok; frame.rows.len()], first_bad: BTreeMap::new() },
+                Num { values: vec![*x; frame.rows.len()], why: vec![Why::Ok; frame.rows.len()], first_bad: BTreeMap::new(), power: None },
             )),
             ExprKind::Paren(inner) => match self.eval(inner, frame, bases)? {
                 Factor::Num(_, v) => Ok(Factor::Num(label, v)),
@@ -511,6 +517,17 @@ impl Ctx<'_> {
             ExprKind::Binary { op, lhs, rhs } => {
                 let a = self.numeric(lhs, frame, bases)?;
                 let b = self.numeric(rhs, frame, bases)?;
+                // `base^k` with a whole k: remember the base for the fit.
+                let power = match (op, &rhs.kind) {
+                    (BinOp::Pow, ExprKind::Number(k)) if k.fract() == 0.0 && *k >= 1.0 && *k <= MAX_POWER => {
+                        match &a.power {
+                            // (x^2)^3 is not recorded.
+                            Some(_) => None,
+                            None => Some(Box::new((typed(self.text, lhs.span), *k as u32, a.values.clone()))),
+                        }
+                    }
+                    _ => None,
+                };
                 let f: fn(f64, f64) -> f64 = match op {
                     BinOp::Add => |a, b| a + b,
                     BinOp::Sub => |a, b| a - b,
@@ -518,7 +535,9 @@ impl Ctx<'_> {
                     BinOp::Pow => f64::powf,
                     BinOp::Mul => |a, b| a * b,
                 };
-                Ok(Factor::Num(label, zip_num(a, &b, f)))
+                let mut v = zip_num(a, &b, f);
+                v.power = power;
+                Ok(Factor::Num(label, v))
             }
             ExprKind::Call { name, args } => {
                 let fname = name.name.to_lowercase();
@@ -550,6 +569,23 @@ impl Ctx<'_> {
         }
     }
 
+    /// The source cell of frame row `i` of an expression that is one column
+    /// (a header name or a one-column range); `None` for anything else.
+    fn cell_of(&self, e: &Expr, frame: &Frame, i: usize) -> Option<CellAddress> {
+        match &e.kind {
+            ExprKind::Name(n) | ExprKind::Quoted(n) => match frame.headers.get(&n.trim().to_lowercase()).map(|v| v.as_slice()) {
+                Some([col]) => Some(CellAddress::new(frame.grid.name.clone(), *frame.rows.get(i)?, *col)),
+                _ => None,
+            },
+            ExprKind::Range(r) => {
+                let (grid, col, rows, _) = self.range_column(r, e.span).ok()?;
+                Some(CellAddress::new(grid.name.clone(), *rows.get(i)?, col))
+            }
+            ExprKind::Paren(inner) => self.cell_of(inner, frame, i),
+            _ => None,
+        }
+    }
+
     fn numeric(&self, e: &Expr, frame: &Frame, bases: &BTreeMap<String, String>) -> Result<Num, Problem> {
         match self.eval(e, frame, bases)? {
             Factor::Num(_, v) => Ok(v),
@@ -575,6 +611,7 @@ impl Ctx<'_> {
 }
 
 fn map_num(mut v: Num, f: impl Fn(f64) -> f64) -> Num {
+    v.power = None;
     for (x, w) in v.values.iter_mut().zip(v.why.iter_mut()) {
         if *w == Why::Ok {
             *x = f(*x);
@@ -588,6 +625,7 @@ fn map_num(mut v: Num, f: impl Fn(f64) -> f64) -> Num {
 }
 
 fn zip_num(mut a: Num, b: &Num, f: impl Fn(f64, f64) -> f64) -> Num {
+    a.power = None;
     a.merge_why(b);
     for i in 0..a.values.len() {
         if a.why[i] == Why::Ok {
@@ -875,11 +913,24 @@ pub fn resolve(
         }
     }
     if let Some(w) = &weights {
+        let w_span = weights_expr.map(|e| e.span).unwrap_or(end);
+        // The weight's own cell, when the weights are one column.
+        let w_cell = |i: usize| -> String {
+            match weights_expr.and_then(|e| ctx.cell_of(e, &frame, i)) {
+                Some(c) => format!("at {c}"),
+                None => format!("in row {}", frame.rows[i] + 1),
+            }
+        };
         for i in 0..n {
-            if why[i] == Why::Ok && w.why[i] == Why::Ok && w.values[i] < 0.0 {
-                let at = CellAddress::new(frame.grid.name.clone(), frame.rows[i], 0);
+            if why[i] == Why::Ok && matches!(w.why[i], Why::Text | Why::ErrorValue) {
+                let what = if w.why[i] == Why::Text { "is text, not a number" } else { "is an error value" };
                 return Err(ctx
-                    .err(weights_expr.map(|e| e.span).unwrap_or(end), format!("the weight in row {} is negative ({})", at.row + 1, w.values[i]))
+                    .err(w_span, format!("the weight {} {what}", w_cell(i)))
+                    .help("weights must be numbers, zero or positive; a zero weight leaves the row out"));
+            }
+            if why[i] == Why::Ok && w.why[i] == Why::Ok && w.values[i] < 0.0 {
+                return Err(ctx
+                    .err(w_span, format!("the weight {} is negative ({})", w_cell(i), w.values[i]))
                     .help("weights must be zero or positive; a zero weight leaves the row out"));
             }
         }
@@ -942,11 +993,23 @@ pub fn resolve(
             }
         }
         let single = expanded.len() == 1 && matches!(f, Factor::Num(..));
+        let power = match f {
+            Factor::Num(_, v) if single => v.power.as_ref().map(|b| PowerOf { base: b.0.clone(), exponent: b.1, base_values: pick(&b.2) }),
+            _ => None,
+        };
         for (l, values) in expanded {
-            columns.push(Column { name: if single { label.clone() } else { l }, term: label.clone(), values });
+            columns.push(Column { name: if single { label.clone() } else { l }, term: label.clone(), values, power: power.clone() });
         }
         if columns.len() > MAX_MODEL_COLUMNS {
             return Err(ctx.err(*span, format!("the model has more than {MAX_MODEL_COLUMNS} columns")).help("use fewer terms"));
+        }
+    }
+    // A plain column that is the base of some power column is its first
+    // power (`Light` beside `Light^2`).
+    let power_bases: Vec<String> = columns.iter().filter_map(|c| c.power.as_ref().map(|p| p.base.to_lowercase())).collect();
+    for c in columns.iter_mut() {
+        if c.power.is_none() && power_bases.contains(&c.name.to_lowercase()) {
+            c.power = Some(PowerOf { base: c.name.clone(), exponent: 1, base_values: c.values.clone() });
         }
     }
     let p = columns.len() + usize::from(intercept);
@@ -962,7 +1025,7 @@ pub fn resolve(
     let request = FitRequest {
         protocol: PROTOCOL_VERSION,
         function: spec.name.clone(),
-        response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values) },
+        response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
         columns,
         intercept,
         weights: weights.as_ref().map(|w| pick(&w.values)),

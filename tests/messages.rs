@@ -118,3 +118,16 @@ fn collinear_terms_are_named() {
     let c = &r.outcome.as_ref().unwrap().coefficients;
     assert_eq!(c.iter().filter(|c| c.estimate.is_none()).count(), 1);
 }
+
+#[test]
+fn powers_of_one_column_draw_no_collinearity_warning() {
+    // Light and Light^2 are collinear by construction (common practice: their
+    // VIFs are large without harm), so only a note is given; a genuinely
+    // redundant pair of distinct columns still warns.
+    let s = evaluate_book(&book(&["#linear(Yield, Light + Light^2, name=q)"]), "b.xlsx", &Registry::builtin());
+    let r = &s.reports[0];
+    let o = r.outcome.as_ref().unwrap();
+    assert!(o.coefficients.iter().filter_map(|c| c.vif).any(|v| v > 10.0), "{:?}", o.coefficients);
+    assert!(!r.messages.iter().any(|m| m.contains("nearly collinear")), "{:?}", r.messages);
+    assert!(o.notes.iter().any(|n| n.contains("collinear by construction")), "{:?}", o.notes);
+}

@@ -9,8 +9,8 @@ mod common;
 use std::path::PathBuf;
 
 use common::workbooks::{
-    compound_file, every_kind_spec, every_kind_workbook, minimal_ods, minimal_xlsx, stored_zip, write_mixed_table,
-    write_table, Col, Expect, LONG_SHEET_NAME,
+    compound_file, every_kind_spec, every_kind_workbook, minimal_ods, minimal_xls, minimal_xlsx, stored_zip,
+    write_mixed_table, write_table, Col, Expect, XlsCell, XlsSheet, LONG_SHEET_NAME,
 };
 use plumb::cells::{CellRange, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
 use plumb::read::{read_workbook, read_workbook_bytes, ReadError, MAX_CELLS};
@@ -293,9 +293,9 @@ fn bad_inputs_give_the_right_error() {
     let foreign_zip = stored_zip(&[("readme.txt", b"hello"), ("data/values.bin", &[1, 2, 3])]);
     not_workbook(&foreign_zip, "archive.xlsx", "zip archive that holds no workbook");
     not_workbook(&stored_zip(&[]), "empty-zip.xlsx", "zip archive");
-    not_workbook(&compound_file(&["WordDocument"]), "letter.xls", "compound document");
+    not_workbook(&compound_file(&[("WordDocument", &[])]), "letter.xls", "compound document");
 
-    match read_workbook_bytes(&compound_file(&["EncryptionInfo", "EncryptedPackage"]), "locked.xlsx") {
+    match read_workbook_bytes(&compound_file(&[("EncryptionInfo", &[]), ("EncryptedPackage", &[])]), "locked.xlsx") {
         Err(e @ ReadError::PasswordProtected { .. }) => {
             assert!(e.to_string().contains("locked.xlsx is password-protected"), "{e}");
         }
@@ -332,7 +332,7 @@ fn bad_inputs_give_the_right_error() {
     println!("noise: {panics} reader panics caught");
 
     // A valid compound-file header over garbage sectors.
-    let mut cfb = compound_file(&["Workbook"]);
+    let mut cfb = compound_file(&[("Workbook", &[])]);
     cfb[48..52].copy_from_slice(&7u32.to_le_bytes()); // directory beyond the end
     assert!(read_workbook_bytes(&cfb, "broken.xls").is_err());
 }
@@ -400,4 +400,100 @@ fn the_demo_workbook_reads_as_described() {
         ]
     );
     assert!(book.sheets[1].cells().count() >= 3, "a few lines of notes");
+}
+
+#[test]
+fn the_format_is_told_from_the_content_not_the_name() {
+    let xlsx = minimal_xlsx(r#"<sheetData><row r="1"><c r="A1"><v>2.5</v></c></row></sheetData>"#, false);
+    let ods = minimal_ods("", r#"<table:table table:name="T"><table:table-row><table:table-cell office:value-type="float" office:value="2.5"/></table:table-row></table:table>"#);
+    for (bytes, name) in [(&xlsx, "book.ods"), (&xlsx, "book.xlsb"), (&xlsx, "book"), (&ods, "book.xlsx"), (&ods, "book.xls"), (&ods, "noext")] {
+        let book = read_bytes_ok(bytes, name);
+        assert_eq!(only_sheet(&book).value(0, 0), Value::Number(2.5), "{name}");
+    }
+    // A directory is not a file to read.
+    let dir = scratch("a folder.xlsx");
+    std::fs::create_dir_all(&dir).expect("create folder");
+    match read_workbook(&dir) {
+        Err(e @ ReadError::Io { .. }) => assert!(e.to_string().contains("a folder.xlsx"), "{e}"),
+        other => panic!("expected Io, got {other:?}"),
+    }
+}
+
+#[test]
+fn xls_values_offsets_formulas_merges_and_visibility() {
+    let data = XlsSheet {
+        name: "Data",
+        state: 0,
+        cells: vec![
+            (4, 2, XlsCell::Label("Light")),
+            (4, 3, XlsCell::Label("Week")),
+            (5, 2, XlsCell::Number { x: 12.5, date: false }),
+            (5, 3, XlsCell::Number { x: 46027.0, date: true }),
+            (6, 2, XlsCell::Bool(true)),
+            (6, 3, XlsCell::Error(0x2A)),
+            (7, 2, XlsCell::Formula { cached: 3.0, rgce: vec![0x1E, 1, 0, 0x1E, 2, 0, 0x03] }),
+            (7, 3, XlsCell::Error(0x07)),
+        ],
+        merged: vec![(4, 4, 4, 5)],
+    };
+    let hidden = XlsSheet { name: "Kept aside", state: 1, cells: vec![(0, 0, XlsCell::Number { x: 1.0, date: false })], merged: vec![] };
+    let book = read_bytes_ok(&minimal_xls(&[data, hidden], false), "old.xls");
+    assert_eq!(book.sheets.len(), 2);
+    let g = &book.sheets[0];
+    assert_eq!((g.name.as_str(), g.visibility), ("Data", Visibility::Visible));
+    assert_eq!(g.extent(), Some(range("C5:D8")), "offset kept");
+    assert_eq!(g.value(4, 2), Value::Text("Light"));
+    assert_eq!(g.value(5, 2), Value::Number(12.5));
+    assert_eq!(g.value(5, 3), Value::DateTime(46027.0, DateKind::Date));
+    assert_eq!(g.value(6, 2), Value::Bool(true));
+    assert_eq!(g.value(6, 3), Value::Error(ErrorValue::NotAvailable));
+    assert_eq!(g.value(7, 2), Value::Number(3.0));
+    assert_eq!(g.formula(7, 2), Some("1+2"));
+    assert_eq!(g.value(7, 3), Value::Error(ErrorValue::Div0));
+    assert_eq!(g.merged, vec![range("E5:F5")]);
+    assert_eq!(g.cells().count(), 8);
+    let h = &book.sheets[1];
+    assert_eq!((h.name.as_str(), h.visibility), ("Kept aside", Visibility::Hidden));
+
+    // In a 1904-system workbook the same date is stored 1462 days lower
+    // (ECMA-376 Part 1 §18.17.4.1; [MS-XLS] §2.4.77 DateMode).
+    let d1904 = XlsSheet { name: "D", state: 0, cells: vec![(0, 0, XlsCell::Number { x: 44565.0, date: true })], merged: vec![] };
+    let book = read_bytes_ok(&minimal_xls(&[d1904], true), "d1904.xls");
+    assert_eq!(only_sheet(&book).value(0, 0), Value::DateTime(46027.0, DateKind::Date));
+}
+
+#[test]
+fn xls_sheets_spanning_too_much_are_refused_before_reading() {
+    // Columns beyond the format's 256 make a rectangle of 65,536 × 65,536
+    // cells, which calamine would allocate densely.
+    let far = XlsSheet {
+        name: "Far",
+        state: 0,
+        cells: vec![(0, 0, XlsCell::Number { x: 1.0, date: false }), (65535, 65535, XlsCell::Number { x: 2.0, date: false })],
+        merged: vec![],
+    };
+    match read_workbook_bytes(&minimal_xls(&[far], false), "far.xls") {
+        Err(e @ ReadError::TooLarge { .. }) => {
+            let msg = e.to_string();
+            assert!(msg.contains("'Far'") && msg.contains("A1:CRXP65536"), "{msg}");
+        }
+        other => panic!("expected TooLarge, got {other:?}"),
+    }
+}
+
+#[test]
+fn a_reader_panic_becomes_damage() {
+    // A BoundSheet8 record ([MS-XLS] §2.4.28) cut to 4 bytes: calamine 0.38
+    // indexes past its end and panics.
+    let mut stream = Vec::new();
+    for (typ, data) in [(0x0809u16, vec![0, 6, 5, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0]), (0x0085, vec![0; 4]), (0x000A, vec![])] {
+        stream.extend_from_slice(&typ.to_le_bytes());
+        stream.extend_from_slice(&(data.len() as u16).to_le_bytes());
+        stream.extend_from_slice(&data);
+    }
+    stream.resize(4096, 0);
+    match read_workbook_bytes(&compound_file(&[("Workbook", &stream)]), "short.xls") {
+        Err(e @ ReadError::Damaged { .. }) => assert!(from_panic(&e), "{e}: {:?}", std::error::Error::source(&e)),
+        other => panic!("expected Damaged, got {other:?}"),
+    }
 }

@@ -5,8 +5,9 @@
 //! statistics and per-row columns under the protocol's names.
 
 use super::{Fit, FitError};
+use crate::numeric::diagnostics::{self as diag, ErrorKind};
 use crate::numeric::{self, LsProblem};
-use crate::protocol::{Coefficient, FitOutcome, FitRequest, FunctionSpec, ParamKind, ParamSpec, RowColumn, Statistic};
+use crate::protocol::{Coefficient, FitOutcome, FitRequest, FunctionSpec, OptionValue, ParamKind, ParamSpec, RowColumn, RowWarning, Statistic};
 
 /// The label of the intercept term.
 pub const INTERCEPT: &str = "(intercept)";
@@ -37,6 +38,7 @@ pub fn shared_options() -> Vec<ParamSpec> {
         param("missing", ParamKind::Choice, Some("skip"), &["skip", "stop"], "leave out rows with blank or non-numeric cells (and count them), or stop with an error"),
         param("data", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
         param("base", ParamKind::Group, None, &[], "base level of a categorical column, e.g. base(Bay=\"East\")"),
+        param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3"], "standard errors: classic (constant variance) or heteroscedasticity-consistent hc0, hc1, hc2, hc3"),
     ]
 }
 
@@ -62,6 +64,35 @@ impl Default for Linear {
     fn default() -> Self {
         Self::new()
     }
+}
+
+/// `(design column, exponent)` of the powers of one base.
+pub(crate) type PowerColumns = Vec<(usize, u32)>;
+
+/// The power columns of a request grouped by base (`Light`, `Light^2`, …):
+/// `(base values, [(design column, exponent)])`, design columns counted
+/// after the intercept. A repeated exponent of one base is left as a plain
+/// column (it is then aliased).
+pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], PowerColumns)> {
+    let off = usize::from(req.intercept);
+    let n = req.rows();
+    let mut groups: Vec<(String, &[f64], PowerColumns)> = Vec::new();
+    for (j, c) in req.columns.iter().enumerate() {
+        let Some(pw) = &c.power else { continue };
+        if pw.base_values.len() != n || pw.exponent == 0 {
+            continue;
+        }
+        let key = pw.base.to_lowercase();
+        match groups.iter_mut().find(|g| g.0 == key) {
+            Some(g) => {
+                if !g.2.iter().any(|e| e.1 == pw.exponent) {
+                    g.2.push((j + off, pw.exponent));
+                }
+            }
+            None => groups.push((key, &pw.base_values, vec![(j + off, pw.exponent)])),
+        }
+    }
+    groups.into_iter().map(|g| (g.1, g.2)).collect()
 }
 
 fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
@@ -101,9 +132,40 @@ impl Fit for Linear {
             weights: req.weights.as_deref(),
             has_intercept: req.intercept,
         };
-        let fit = numeric::least_squares(&problem).map_err(|e| FitError::new(e.to_string()))?;
+        let fit = {
+            let groups = power_groups(req);
+            let groups: Vec<numeric::PowerGroup> =
+                groups.iter().map(|(base, cols)| numeric::PowerGroup { base, columns: cols }).collect();
+            numeric::least_squares_powers(&problem, &groups, req.intercept.then_some(0))
+        }
+        .map_err(|e| FitError::new(e.to_string()))?;
         let mut out = FitOutcome::default();
-        let table = numeric::coefficient_table(&fit, req.level);
+        let kind = match req.options.get("errors") {
+            None => ErrorKind::Classic,
+            Some(OptionValue::Text(w)) => ErrorKind::parse(w)
+                .ok_or_else(|| FitError::new(format!("errors={w} is not one of the choices")).help("errors takes classic, hc0, hc1, hc2, hc3"))?,
+            Some(_) => return Err(FitError::new("errors= takes a word").help("errors takes classic, hc0, hc1, hc2, hc3")),
+        };
+        let intercept_col = req.intercept.then_some(0);
+        let table = if kind == ErrorKind::Classic {
+            numeric::coefficient_table(&fit, req.level)
+        } else {
+            // Same t tests and intervals, on the robust standard errors.
+            let cov = diag::robust_covariance(&fit, &x, kind);
+            let mut robust = fit.clone();
+            robust.std_errors = (0..p).map(|j| cov[j * p + j].sqrt()).collect();
+            numeric::coefficient_table(&robust, req.level)
+        };
+        out.standard_errors = Some(kind.label().to_string());
+        if kind != ErrorKind::Classic {
+            out.notes.push(format!(
+                "standard errors, t statistics, p-values and intervals use {} heteroscedasticity-consistent standard errors (errors={})",
+                kind.label(),
+                kind.label().to_lowercase()
+            ));
+        }
+        let vif = diag::variance_inflation(&fit, &x, intercept_col);
+        let standardized = diag::standardized_coefficients(&fit, &x, &req.response.values, intercept_col);
         for (j, row) in table.iter().enumerate() {
             let est = !fit.aliased[j];
             out.coefficients.push(Coefficient {
@@ -114,6 +176,8 @@ impl Fit for Linear {
                 p_value: est.then_some(row.p_value).and_then(finite),
                 lower: est.then_some(row.lower).and_then(finite),
                 upper: est.then_some(row.upper).and_then(finite),
+                vif: finite(vif[j]),
+                standardized: finite(standardized[j]),
             });
             if fit.aliased[j] {
                 let combo: Vec<String> = fit.alias_of[j].iter().map(|(k, _)| labels[*k].clone()).collect();
@@ -138,7 +202,6 @@ impl Fit for Linear {
             stat("log_likelihood", "Log-likelihood", g, fit.log_likelihood),
             stat("aic", "AIC", g, fit.aic),
             stat("bic", "BIC", g, fit.bic),
-            stat("condition_number", "Condition number (scaled design)", g, fit.condition_number),
             stat("df_model", "Degrees of freedom, regression", a, fit.df_model),
             stat("ss_model", "Sum of squares, regression", a, fit.ssr),
             stat("ms_model", "Mean square, regression", a, fit.ssr / fit.df_model),
@@ -146,19 +209,269 @@ impl Fit for Linear {
             stat("ss_resid", "Sum of squares, residual", a, fit.sse),
             stat("ms_resid", "Mean square, residual", a, fit.sse / fit.df_resid),
             stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
+            stat("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
+            stat("anova_f", "F (mean square regression / mean square residual)", a, fit.f_statistic),
+            stat("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());
         }
         let std_res = numeric::standardized_residuals(&fit);
         let cooks = numeric::cooks_distance(&fit);
+        let external = diag::studentized_residuals_external(&fit);
+        let dffits = diag::dffits(&fit, &external);
+        // Columns that are powers of a base with two or more powers in the model.
+        let mut structural = vec![false; usize::from(req.intercept)];
+        for c in &req.columns {
+            let shared = c.power.as_ref().is_some_and(|pw| req.columns.iter().filter(|o| o.power.as_ref().is_some_and(|q| q.base == pw.base)).count() > 1);
+            structural.push(shared);
+        }
+        diagnose(&fit, &x, &labels, &structural, &vif, &cooks, &external, &mut out);
         out.rows = vec![
             RowColumn { key: "fitted".into(), label: "Fitted".into(), values: fit.fitted.clone() },
             RowColumn { key: "residual".into(), label: "Residual".into(), values: fit.residuals.clone() },
             RowColumn { key: "std_residual".into(), label: "Standardized residual".into(), values: std_res },
             RowColumn { key: "leverage".into(), label: "Leverage".into(), values: fit.leverage.clone() },
             RowColumn { key: "cooks_distance".into(), label: "Cook's distance".into(), values: cooks },
+            RowColumn { key: "studentized_residual".into(), label: "Studentized residual".into(), values: external },
+            RowColumn { key: "dffits".into(), label: "DFFITS".into(), values: dffits },
         ];
         Ok(out)
+    }
+}
+
+/// Durbin–Watson values outside this band draw a warning (a common rule of
+/// thumb, not a test: the exact bounds depend on n and the design).
+pub const DW_BAND: (f64, f64) = (1.5, 2.5);
+/// Breusch–Pagan (Koenker's form) p-values below this draw a warning.
+pub const BP_ALPHA: f64 = 0.05;
+/// Cook's distances above this draw a warning naming the row (common
+/// practice: above 0.5 worth a look, above 1 clearly influential).
+pub const COOK_WARN: f64 = 0.5;
+/// Variance inflation factors above this draw a warning (common practice,
+/// e.g. Marquardt 1970's guidance that VIFs well above 10 signal trouble).
+pub const VIF_WARN: f64 = 10.0;
+/// |externally studentized residual| above this is counted as unusual
+/// (common practice).
+pub const STUDENTIZED_FLAG: f64 = 3.0;
+
+/// Shortest figure for a warning: four significant digits.
+fn short(x: f64) -> String {
+    if !x.is_finite() || x == 0.0 {
+        return format!("{x}");
+    }
+    if x.abs() >= 1e5 || x.abs() < 1e-3 {
+        format!("{x:.3e}")
+    } else {
+        // |x| in [1e-3, 1e5): the exponent is in -3..=4.
+        let digits = (3 - x.abs().log10().floor() as i32).clamp(0, 6) as usize;
+        format!("{x:.digits$}")
+    }
+}
+
+/// The residual checks, collinearity and influence statistics of a fit, and
+/// the plain-language warnings they call for.
+/// `structural[j]` marks a column that is a power of a base column which
+/// also appears in another power (`Light`, `Light^2`): such columns are
+/// collinear by construction, so their VIF is reported but not warned about.
+#[allow(clippy::too_many_arguments)]
+fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bool], vif: &[f64], cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
+    let n = fit.n;
+    let p = fit.coefficients.len();
+    let nf = n as f64;
+    let k = fit.rank as f64;
+    let u = diag::weighted_residuals(fit);
+    let rc = "Residual checks";
+    let dw = diag::durbin_watson(&u);
+    out.statistics.push(stat("durbin_watson", "Durbin–Watson", rc, dw));
+    let bp = diag::breusch_pagan(&u, &fit.fitted, x, n, p, fit.has_intercept);
+    if let Some(bp) = &bp {
+        out.statistics.push(stat("bp_koenker", "Breusch–Pagan (Koenker, studentized)", rc, bp.koenker));
+        out.statistics.push(stat("bp_koenker_p_value", "p-value of Breusch–Pagan (Koenker)", rc, bp.koenker_p));
+        out.statistics.push(stat("bp_original", "Breusch–Pagan (original)", rc, bp.original));
+        out.statistics.push(stat("bp_original_p_value", "p-value of Breusch–Pagan (original)", rc, bp.original_p));
+        out.statistics.push(stat("bp_df", "Degrees of freedom of Breusch–Pagan", rc, bp.df));
+    }
+    let jb = diag::jarque_bera(&u);
+    out.statistics.push(stat("jarque_bera", "Jarque–Bera", rc, jb.statistic));
+    out.statistics.push(stat("jarque_bera_p_value", "p-value of Jarque–Bera", rc, jb.p_value));
+    out.statistics.push(stat("skewness", "Skewness of residuals", rc, jb.skewness));
+    out.statistics.push(stat("kurtosis", "Kurtosis of residuals", rc, jb.kurtosis));
+
+    let co = "Collinearity";
+    out.statistics.push(stat("condition_number", "Condition number (scaled design)", co, fit.condition_number));
+    if let Some((j, v)) = diag::largest(vif, false) {
+        out.statistics.push(stat("max_vif", &format!("Largest variance inflation factor ({})", labels[j]), co, v));
+    }
+
+    let inf = "Influence";
+    let lev_limit = 2.0 * k / nf;
+    let cook_limit = 4.0 / nf;
+    if let Some((i, v)) = diag::largest(&fit.leverage, false) {
+        out.statistics.push(stat("max_leverage", "Largest leverage", inf, v));
+        out.statistic_rows.insert("max_leverage".into(), i);
+    }
+    if let Some((i, v)) = diag::largest(cooks, false) {
+        out.statistics.push(stat("max_cooks_distance", "Largest Cook's distance", inf, v));
+        out.statistic_rows.insert("max_cooks_distance".into(), i);
+    }
+    if let Some((i, v)) = diag::largest(external, true) {
+        out.statistics.push(stat("max_studentized_residual", "Largest studentized residual (by size)", inf, v));
+        out.statistic_rows.insert("max_studentized_residual".into(), i);
+    }
+    out.statistics.push(stat("leverage_flag_count", "Rows with leverage above 2p/n", inf, diag::count_above(&fit.leverage, lev_limit, false) as f64));
+    out.statistics.push(stat("cooks_flag_count", "Rows with Cook's distance above 4/n", inf, diag::count_above(cooks, cook_limit, false) as f64));
+    out.statistics.push(stat("studentized_flag_count", "Rows with |studentized residual| above 3", inf, diag::count_above(external, STUDENTIZED_FLAG, true) as f64));
+
+    // Warnings in plain words.
+    if dw.is_finite() && n >= 3 && (dw < DW_BAND.0 || dw > DW_BAND.1) {
+        let how = if dw < DW_BAND.0 { "neighbouring rows tend to have residuals of the same sign" } else { "neighbouring rows tend to have residuals of opposite sign" };
+        out.warnings.push(format!(
+            "the residuals look correlated in row order: Durbin–Watson is {} (far from 2; below {} or above {} draws this warning), so {how}; if the rows are in time order, the standard errors may be too small",
+            short(dw), DW_BAND.0, DW_BAND.1
+        ));
+    }
+    if let Some(bp) = &bp {
+        if bp.koenker_p < BP_ALPHA {
+            let what = if bp.trend_with_fitted > 0.0 { "the spread of the residuals grows with the fitted value" } else { "the spread of the residuals changes with the terms" };
+            out.warnings.push(format!(
+                "{what} (Breusch–Pagan p = {}, below {BP_ALPHA}); classic standard errors may be off — errors=hc3 gives ones that allow for it",
+                short(bp.koenker_p)
+            ));
+        }
+    }
+    let mut big: Vec<(usize, f64)> = cooks.iter().copied().enumerate().filter(|(_, d)| d.is_finite() && *d > COOK_WARN).collect();
+    big.sort_by(|a, b| b.1.total_cmp(&a.1));
+    for &(i, d) in big.iter().take(3) {
+        out.row_warnings.push(RowWarning {
+            row: i,
+            text: format!("{{row}} has a large influence on this fit (Cook's distance {}, above {COOK_WARN}); check it and see how the fit changes without it", short(d)),
+        });
+    }
+    if big.len() > 3 {
+        out.warnings.push(format!("{} more rows have Cook's distance above {COOK_WARN}", big.len() - 3));
+    }
+    let collinear: Vec<String> = vif
+        .iter()
+        .enumerate()
+        .filter(|(j, v)| v.is_finite() && **v > VIF_WARN && !structural.get(*j).copied().unwrap_or(false))
+        .map(|(j, v)| format!("{} ({})", labels[j], short(*v)))
+        .collect();
+    if structural.iter().any(|s| *s) {
+        out.notes.push("powers of one column are collinear by construction, so their variance inflation factors are high without harm; they draw no warning".into());
+    }
+    if !collinear.is_empty() {
+        out.warnings.push(format!(
+            "terms nearly collinear: variance inflation factor above {VIF_WARN} for {}; their estimates are unstable and hard to tell apart",
+            collinear.join(", ")
+        ));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::protocol::{Column, PROTOCOL_VERSION};
+    use std::collections::BTreeMap;
+
+    fn col(name: &str, values: Vec<f64>) -> Column {
+        Column { name: name.into(), term: name.into(), values, power: None }
+    }
+
+    fn request(y: Vec<f64>, cols: Vec<Column>, intercept: bool, weights: Option<Vec<f64>>, errors: &str) -> FitRequest {
+        let mut options = BTreeMap::new();
+        options.insert("errors".to_string(), OptionValue::Text(errors.into()));
+        FitRequest {
+            protocol: PROTOCOL_VERSION,
+            function: "linear".into(),
+            response: col("y", y),
+            columns: cols,
+            intercept,
+            weights,
+            level: 0.95,
+            options,
+        }
+    }
+
+    #[test]
+    fn robust_errors_with_weights_an_aliased_term_and_no_intercept() {
+        let x: Vec<f64> = (0..10).map(|i| i as f64).collect();
+        let twice: Vec<f64> = x.iter().map(|v| 2.0 * v).collect();
+        let z: Vec<f64> = (0..10).map(|i| ((i * 7) % 5) as f64).collect();
+        let y: Vec<f64> = (0..10).map(|i| 1.0 + 0.5 * i as f64 + ((i * 3) % 4) as f64 * 0.3).collect();
+        let w: Vec<f64> = (0..10).map(|i| 1.0 + (i % 3) as f64).collect();
+        let req = request(y, vec![col("x", x), col("twice", twice), col("z", z)], false, Some(w), "hc3");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        assert_eq!(out.standard_errors.as_deref(), Some("HC3"));
+        let aliased = &out.coefficients[1];
+        assert!(aliased.estimate.is_none() && aliased.std_error.is_none() && aliased.vif.is_none());
+        for c in [&out.coefficients[0], &out.coefficients[2]] {
+            assert!(c.std_error.is_some_and(|v| v > 0.0) && c.vif.is_some_and(|v| v >= 1.0), "{c:?}");
+        }
+        assert!(out.notes.iter().any(|n| n.contains("HC3")));
+    }
+
+    #[test]
+    fn an_exact_fit_gives_blank_checks_and_no_false_warnings() {
+        let x: Vec<f64> = (0..8).map(|i| i as f64).collect();
+        let y: Vec<f64> = x.iter().map(|v| 1.0 + 2.0 * v).collect();
+        let req = request(y, vec![col("x", x)], true, None, "hc1");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        // Every residual is zero: Durbin–Watson and Jarque–Bera are 0/0.
+        assert!(out.statistic("durbin_watson").is_some_and(f64::is_nan));
+        assert!(out.statistic("jarque_bera").is_some_and(f64::is_nan));
+        assert!(out.row_warnings.is_empty());
+        assert!(out.warnings.iter().all(|w| !w.contains("correlated") && !w.contains("spread")), "{:?}", out.warnings);
+    }
+
+    #[test]
+    fn short_figures() {
+        // Four significant digits (our display rule).
+        assert_eq!(short(1.485131), "1.485");
+        assert_eq!(short(149.53), "149.5");
+        assert_eq!(short(0.012345), "0.01235");
+        assert_eq!(short(0.0), "0");
+        assert_eq!(short(2.5e-7), "2.500e-7");
+    }
+
+    #[test]
+    fn constant_residuals_in_row_order_do_not_fail() {
+        // A constant y fitted through the origin on x: the residuals
+        // 1 − b·x fall in a straight line, so neighbouring rows are alike
+        // and Durbin–Watson is small (direct consequence of its formula).
+        let x: Vec<f64> = (1..9).map(|i| i as f64).collect();
+        let y: Vec<f64> = vec![1.0; 8];
+        let req = request(y, vec![col("x", x)], false, None, "hc0");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+        assert!(out.statistic("durbin_watson").is_some_and(|d| d < 1.5));
+        assert!(out.warnings.iter().any(|w| w.contains("correlated in row order")), "{:?}", out.warnings);
+    }
+
+    #[test]
+    fn as_many_rows_as_parameters_does_not_fail() {
+        let req = request(vec![1.0, 3.0], vec![col("x", vec![0.0, 1.0])], true, None, "hc2");
+        let out = Linear::new().fit(&req).expect("fits");
+        out.check_shape(&req).expect("well formed");
+    }
+
+    #[test]
+    fn an_influential_row_is_named_by_index() {
+        // Ten points on a line with small scatter, and one far out of line at
+        // a far x: its Cook's distance is far above 0.5 (constructed; the
+        // threshold is common practice).
+        let mut x: Vec<f64> = (0..10).map(|i| i as f64).collect();
+        let mut y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + if i % 3 == 0 { 0.2 } else { -0.1 }).collect();
+        x.push(30.0);
+        y.push(20.0);
+        let req = request(y, vec![col("x", x)], true, None, "classic");
+        let out = Linear::new().fit(&req).expect("fits");
+        assert_eq!(out.row_warnings.len(), 1, "{:?}", out.row_warnings);
+        assert_eq!(out.row_warnings[0].row, 10);
+        assert!(out.row_warnings[0].text.starts_with("{row} has a large influence"));
+        assert_eq!(out.statistic_rows.get("max_cooks_distance"), Some(&10));
+        assert_eq!(out.statistic_rows.get("max_leverage"), Some(&10));
     }
 }

@@ -41,8 +41,9 @@ use super::{inference, LsError, LsFit, LsProblem};
 ///   condition numbers up to ~1e10 for Filip's raw powers) stay full rank.
 /// - It is stricter than LAPACK-style `max(n,p)·u` cut-offs, which would
 ///   keep columns whose coefficients carry no correct digit in double
-///   precision, and looser than R's `lm` default of 1e-7, which is a
-///   statistical rather than a numerical judgement.
+///   precision, and much looser than cut-offs of order 1e-7, which make a
+///   statistical rather than a numerical judgement (a column that is
+///   merely highly collinear is kept; its large standard error says so).
 pub const RANK_TOLERANCE: f64 = 1e-11;
 
 /// The solution refinement stops once a correction is at most this
@@ -108,6 +109,9 @@ fn exponent(x: f64) -> i32 {
 /// solve with the factorisation.
 struct System<'a> {
     x: &'a [f64],
+    /// Low parts of the design columns (same layout as `x`) when the design
+    /// is held in double-double (power columns built from a base column).
+    x_lo: Option<&'a [f64]>,
     n: usize,
     /// √w in double-double, when weighted.
     sw: Option<&'a [Dd]>,
@@ -138,6 +142,12 @@ impl System<'_> {
         &self.x[c * self.n..(c + 1) * self.n]
     }
 
+    /// Low part of kept column `a`, when the design is double-double.
+    fn col_lo(&self, a: usize) -> Option<&[f64]> {
+        let c = self.kept[a];
+        self.x_lo.map(|l| &l[c * self.n..(c + 1) * self.n])
+    }
+
     /// `u = rhs − X_kept β` in double-double (`β = D x`), Dot2 per row
     /// (Ogita–Rump–Oishi 2005) with the loop over columns outside.
     fn residual_dd(&self, rhs: Option<&[f64]>, beta: &[Dd], us: &mut [f64], uc: &mut [f64]) {
@@ -151,6 +161,12 @@ impl System<'_> {
                 continue;
             }
             axpy_dot2(self.col(a), -b.hi, -b.lo, us, uc);
+            if let Some(lo) = self.col_lo(a) {
+                // The low part's product is below u·|x·β|: one rounding.
+                for (c, l) in uc.iter_mut().zip(lo) {
+                    *c -= l * b.hi;
+                }
+            }
         }
         for (s, c) in us.iter_mut().zip(uc.iter_mut()) {
             let (h, l) = two_sum(*s, *c);
@@ -211,7 +227,11 @@ impl System<'_> {
                 let ga = if steps == 0 {
                     Dd::ZERO
                 } else {
-                    -dot2_dd(self.col(a), &us, &uc).mul_f64(self.d[a])
+                    let mut t = dot2_dd(self.col(a), &us, &uc);
+                    if let Some(lo) = self.col_lo(a) {
+                        t = t.add_f64(lo.iter().zip(us.iter()).map(|(l, u)| l * u).sum::<f64>());
+                    }
+                    -t.mul_f64(self.d[a])
                 };
                 g[a] = match c {
                     Some(c) => ga.add_f64(c[a]).to_f64(),
@@ -316,6 +336,45 @@ fn scaled_condition(r: &[f64], k: usize) -> f64 {
 /// inconsistent sizes, no columns, fewer rows than columns, non-finite
 /// values, non-positive weights, and an all-zero design.
 pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
+    core(problem, None, None).map(|c| c.fit)
+}
+
+/// A fit with its double-double coefficients and covariance (working basis).
+pub(crate) struct Core {
+    pub fit: LsFit,
+    /// Coefficients, zero for aliased columns.
+    pub beta: Vec<Dd>,
+    /// `p × p` column-major covariance, zero rows/columns for aliased ones.
+    pub cov: Vec<Dd>,
+}
+
+/// A change of basis `Z = X N` between the user's design `X` and the
+/// working design `Z`, with its inverse `M = N⁻¹` (`X = Z M`), both `p × p`
+/// column-major in double-double. Coefficients transform as `β = N γ`.
+pub(crate) struct Basis {
+    pub n_mat: Vec<Dd>,
+    pub m_mat: Vec<Dd>,
+}
+
+/// `out = A v` for a `p × p` column-major double-double matrix.
+pub(crate) fn mat_vec(a: &[Dd], v: &[Dd], p: usize) -> Vec<Dd> {
+    let mut out = vec![Dd::ZERO; p];
+    for j in 0..p {
+        if v[j].hi == 0.0 && v[j].lo == 0.0 {
+            continue;
+        }
+        for i in 0..p {
+            let m = a[j * p + i];
+            if m.hi != 0.0 || m.lo != 0.0 {
+                out[i] = out[i] + m * v[j];
+            }
+        }
+    }
+    out
+}
+
+/// The least squares driver on a working design `problem.x` (+ `x_lo`).
+pub(crate) fn core(problem: &LsProblem, x_lo: Option<&[f64]>, basis: Option<&Basis>) -> Result<Core, LsError> {
     let LsProblem { x, n, p, y, weights, has_intercept } = *problem;
     if p == 0 {
         return Err(LsError::NoColumns);
@@ -376,7 +435,7 @@ pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
     let k = qr.rank;
     let kept: Vec<usize> = qr.cols[..k].to_vec();
     let d: Vec<f64> = kept.iter().map(|&c| d_all[c]).collect();
-    let sys = System { x, n, sw, kept: &kept, d: &d, qr: &qr, r: &r };
+    let sys = System { x, x_lo, n, sw, kept: &kept, d: &d, qr: &qr, r: &r };
 
     // Step 3: refined coefficients.
     let sol = sys.refine(Some(y), None);
@@ -429,13 +488,28 @@ pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
         (acc.value(), us, uc)
     };
     let (mut sse, mut us, mut uc) = residual_ss(&beta);
+    let mut beta_used = beta.clone();
     if sse.hi <= 1e-24 * sst.hi.abs() || sst.hi == 0.0 {
-        let beta_rounded: Vec<Dd> = beta.iter().map(|b| Dd::new(b.to_f64())).collect();
+        let beta_rounded: Vec<Dd> = match basis {
+            None => beta.iter().map(|b| Dd::new(b.to_f64())).collect(),
+            Some(bs) => {
+                // Round the coefficients of the user's basis, β = Nγ, and
+                // map them back, γ' = M·round(β) (kept columns only).
+                let mut g = vec![Dd::ZERO; p];
+                for a in 0..k {
+                    g[kept[a]] = beta[a];
+                }
+                let b: Vec<Dd> = mat_vec(&bs.n_mat, &g, p).iter().map(|v| Dd::new(v.to_f64())).collect();
+                let g2 = mat_vec(&bs.m_mat, &b, p);
+                (0..k).map(|a| g2[kept[a]]).collect()
+            }
+        };
         let (s2, us2, uc2) = residual_ss(&beta_rounded);
         if s2.hi < sse.hi || (s2.hi == sse.hi && s2.lo <= sse.lo) {
             sse = s2;
             us = us2;
             uc = uc2;
+            beta_used = beta_rounded;
         }
     }
     let mut residuals = vec![0.0; n];
@@ -473,11 +547,15 @@ pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
     let mut coefficients = vec![f64::NAN; p];
     let mut std_errors = vec![f64::NAN; p];
     let mut covariance = vec![f64::NAN; p * p];
+    let mut beta_dd = vec![Dd::ZERO; p];
+    let mut cov_dd = vec![Dd::ZERO; p * p];
     for a in 0..k {
-        coefficients[kept[a]] = beta[a].to_f64();
+        coefficients[kept[a]] = beta_used[a].to_f64();
+        beta_dd[kept[a]] = beta_used[a];
         for b in 0..k {
             let v = (cmat[b * k + a] * s2).mul_f64(d[a] * d[b]);
             covariance[kept[b] * p + kept[a]] = v.to_f64();
+            cov_dd[kept[b] * p + kept[a]] = v;
         }
         std_errors[kept[a]] = (cmat[a * k + a] * s2).sqrt().mul_f64(d[a]).to_f64();
     }
@@ -509,7 +587,7 @@ pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
     let aic = -2.0 * log_likelihood + 2.0 * kf;
     let bic = -2.0 * log_likelihood + kf * nf.ln();
 
-    Ok(LsFit {
+    let fit = LsFit {
         coefficients,
         std_errors,
         aliased,
@@ -543,7 +621,8 @@ pub fn least_squares(problem: &LsProblem) -> Result<LsFit, LsError> {
             covariance_steps: cov_steps,
             covariance_last_correction: cov_last,
         },
-    })
+    };
+    Ok(Core { fit, beta: beta_dd, cov: cov_dd })
 }
 
 /// `‖W^½ v‖₂` (plain double; used only for relative thresholds).
@@ -618,10 +697,17 @@ fn gram_dd(sys: &System, w: Option<&[f64]>) -> Vec<Dd> {
         }
         for b in a..k {
             let cb = sys.col(b);
-            let t = match w {
+            let mut t = match w {
                 None => dot2(ca, cb),
                 Some(_) => dot2_dd(cb, &zh, &zl),
             };
+            if let (Some(la), Some(lb)) = (sys.col_lo(a), sys.col_lo(b)) {
+                // Cross terms with the low parts (each below u of the
+                // whole product): plain sums suffice.
+                let ww = |i: usize| w.map_or(1.0, |w| w[i]);
+                let cross: f64 = (0..sys.n).map(|i| ww(i) * (la[i] * cb[i] + ca[i] * lb[i])).sum();
+                t = t.add_f64(cross);
+            }
             let v = t.mul_f64(sys.d[a] * sys.d[b]);
             g[b * k + a] = v;
             g[a * k + b] = v;

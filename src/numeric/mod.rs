@@ -10,22 +10,28 @@
 //! accurately accumulated *residual* when refining the covariance matrix.
 //!
 //! Submodules: [`dd`] (double-double arithmetic), [`qr`] (pivoted Householder
-//! QR), [`lsq`] (the least squares driver and refinement), [`inference`]
-//! (distributions and tests built on statrs).
+//! QR), [`lsq`] (the least squares driver and refinement), [`poly`]
+//! (power columns fitted in a centred, scaled basis), [`inference`]
+//! (distributions and tests built on statrs), [`diagnostics`] (residual
+//! checks, collinearity, influence and heteroscedasticity-consistent
+//! standard errors on a finished fit).
 
 pub mod dd;
+pub mod diagnostics;
 pub mod inference;
 pub mod lsq;
+pub mod poly;
 pub mod qr;
 
 #[cfg(test)]
 mod tests;
 
 pub use inference::{
-    chi2_sf, coefficient_table, cooks_distance, f_sf, standardized_residuals, t_quantile, t_sf,
-    CoefficientRow,
+    chi2_cdf, chi2_quantile, chi2_sf, coefficient_table, cooks_distance, f_cdf, f_quantile, f_sf,
+    standardized_residuals, t_quantile, t_sf, CoefficientRow,
 };
 pub use lsq::{least_squares, CovarianceMethod, Refinement, RANK_TOLERANCE};
+pub use poly::{least_squares_powers, PowerGroup};
 
 use std::fmt;
 

@@ -12,8 +12,9 @@
 //!   269–276; Golub & Van Loan §5.4.2. At each step the remaining column of
 //!   largest remaining 2-norm is moved to the front.
 //! - "In-order" pivoting (keep the caller's column order, move a column to
-//!   the end only when its remaining norm falls below the threshold) is the
-//!   limited pivoting of LINPACK's `dqrdc` as used by R's `lm` (`dqrdc2`);
+//!   the end only when its remaining norm falls below the threshold) is a
+//!   limited form of pivoting (cf. the initial/free column options of
+//!   LINPACK `dqrdc`, Dongarra et al., *LINPACK Users' Guide* (1979), ch. 9);
 //!   it is used here only to choose *which* columns of an already detected
 //!   rank-deficient design are reported as aliased (see `lsq`).
 //! - Forming the thin `Q` by backward accumulation of the reflectors in place

@@ -273,3 +273,128 @@ pub fn lre(est: f64, cert: f64, digits: f64) -> f64 {
         v.clamp(0.0, digits)
     }
 }
+
+/// The 11 linear datasets, in the order of the StRD listing.
+pub const LINEAR: [&str; 11] =
+    ["Norris", "Pontius", "NoInt1", "NoInt2", "Filip", "Longley", "Wampler1", "Wampler2", "Wampler3", "Wampler4", "Wampler5"];
+
+/// The LRE of every certified value of one fit through the tool.
+#[derive(Clone, Debug)]
+pub struct Lres {
+    /// Dataset name.
+    pub name: String,
+    /// Per coefficient.
+    pub coefficients: Vec<f64>,
+    /// Per coefficient standard deviation.
+    pub std_devs: Vec<f64>,
+    /// Residual standard deviation.
+    pub residual_sd: f64,
+    /// R².
+    pub r_squared: f64,
+    /// Regression and residual sums of squares.
+    pub ss: [f64; 2],
+    /// Regression and residual mean squares.
+    pub ms: [f64; 2],
+    /// F statistic.
+    pub f: f64,
+    /// Regression and residual degrees of freedom.
+    pub df: [f64; 2],
+}
+
+fn min(v: &[f64]) -> f64 {
+    v.iter().cloned().fold(f64::INFINITY, f64::min)
+}
+
+impl Lres {
+    /// (quantity, LRE) for every certified value, minima over the vectors.
+    pub fn named(&self) -> Vec<(String, f64)> {
+        let mut out = Vec::new();
+        for (i, v) in self.coefficients.iter().enumerate() {
+            out.push((format!("coefficient B{}", i), *v));
+        }
+        for (i, v) in self.std_devs.iter().enumerate() {
+            out.push((format!("SD of B{}", i), *v));
+        }
+        out.push(("residual SD".into(), self.residual_sd));
+        out.push(("R²".into(), self.r_squared));
+        out.push(("SS regression".into(), self.ss[0]));
+        out.push(("SS residual".into(), self.ss[1]));
+        out.push(("MS regression".into(), self.ms[0]));
+        out.push(("MS residual".into(), self.ms[1]));
+        out.push(("F".into(), self.f));
+        out.push(("df regression".into(), self.df[0]));
+        out.push(("df residual".into(), self.df[1]));
+        out
+    }
+
+    /// One line of the LRE table: minima per quantity.
+    pub fn row(&self) -> String {
+        format!(
+            "| {:<9} | {:>5.1} | {:>5.1} | {:>6.1} | {:>5.1} | {:>5.1} | {:>5.1} | {:>5.1} |",
+            self.name,
+            min(&self.coefficients),
+            min(&self.std_devs),
+            self.residual_sd,
+            self.r_squared,
+            self.ss[0].min(self.ss[1]),
+            self.ms[0].min(self.ms[1]),
+            self.f
+        )
+    }
+}
+
+/// The table header matching [`Lres::row`].
+pub const TABLE_HEADER: &str = "| dataset   | coef  | SD    | res.SD | R²    | SS    | MS    | F     |\n|---|---|---|---|---|---|---|---|";
+
+/// Writes the dataset as a workbook (`y`, `x1`, … on sheet Data, the
+/// request in the column after the table), runs `plumb run`, reads the
+/// output back with calamine and measures the LRE of every certified value.
+/// The request must name its fit `nist`. `None` when the reference data is
+/// absent (after a notice).
+pub fn through_tool(name: &str, request: &str) -> Option<Lres> {
+    use plumb::fits::Registry;
+    use plumb::pipeline::{run, RunConfig};
+    let d = load_linear(name)?;
+    let dir = std::env::temp_dir().join(format!("plumb-nist-{}-{name}-{}", std::process::id(), request.len()));
+    std::fs::create_dir_all(&dir).unwrap_or_else(|e| panic!("cannot create {}: {e}", dir.display()));
+    let input = dir.join(format!("{name}.xlsx"));
+    let mut headers = vec!["y".to_string()];
+    let mut cols = vec![d.y.iter().map(|v| Some(*v)).collect::<Vec<_>>()];
+    for (i, x) in d.x.iter().enumerate() {
+        headers.push(format!("x{}", i + 1));
+        cols.push(x.iter().map(|v| Some(*v)).collect());
+    }
+    let h: Vec<&str> = headers.iter().map(|s| s.as_str()).collect();
+    let req_col = headers.len() as u32 + 2;
+    super::workbooks::write_table(&input, "Data", &h, &cols, &[(0, req_col, request)]);
+    let out = dir.join("out.xlsx");
+    let summary = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin())
+        .unwrap_or_else(|e| panic!("{name}: run failed: {e}"));
+    assert!(!summary.any_failed(), "{name}: {:?}", summary.problems);
+    let coefs = super::output::coefficients(&out, "nist");
+    assert_eq!(coefs.len(), d.coefficients.len(), "{name}: {coefs:?}");
+    let stat = |label: &str| super::output::statistic(&out, "nist", label);
+    let need = |label: &str| stat(label).unwrap_or_else(|| panic!("{name}: no '{label}' on the Diagnostics sheet"));
+    let r2_label = if d.intercept { "R²" } else { "R² (uncentred, no intercept)" };
+    let a = d.anova.clone().unwrap_or_else(|| panic!("{name}: no certified ANOVA table"));
+    // F of an exact fit is certified as Infinity; the output shows an
+    // infinite F as a blank cell, which counts as exact.
+    let f = match stat("F statistic") {
+        Some(v) => lre(v, a.f, 15.0),
+        None if a.f.is_infinite() => 15.0,
+        None => 0.0,
+    };
+    let l = Lres {
+        name: name.to_string(),
+        coefficients: coefs.iter().zip(&d.coefficients).map(|(c, b)| lre(c.estimate.unwrap_or(f64::NAN), *b, 15.0)).collect(),
+        std_devs: coefs.iter().zip(&d.std_devs).map(|(c, b)| lre(c.std_error.unwrap_or(f64::NAN), *b, 15.0)).collect(),
+        residual_sd: lre(need("Root mean squared error"), d.residual_sd, 15.0),
+        r_squared: lre(need(r2_label), d.r_squared, 15.0),
+        ss: [lre(need("Sum of squares, regression"), a.ss_reg, 15.0), lre(need("Sum of squares, residual"), a.ss_res, 15.0)],
+        ms: [lre(need("Mean square, regression"), a.ms_reg, 15.0), lre(need("Mean square, residual"), a.ms_res, 15.0)],
+        f,
+        df: [lre(need("Degrees of freedom, regression"), a.df_reg, 15.0), lre(need("Degrees of freedom, residual"), a.df_res, 15.0)],
+    };
+    let _ = std::fs::remove_dir_all(&dir);
+    Some(l)
+}

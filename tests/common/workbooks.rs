@@ -2,10 +2,15 @@
 //! and sheet-name oddity the reader must keep ([`every_kind_workbook`], its
 //! contents listed by [`every_kind_spec`] so tests can compare cell by cell),
 //! and plain tables with request cells ([`write_table`], [`write_mixed_table`])
-//! for the fitting tests.
+//! for the fitting tests. Every such workbook's creation time is pinned, so
+//! the same call writes the same bytes.
 //!
-//! Every workbook's creation time is pinned, so the same call writes the
-//! same bytes.
+//! Below those, hand-built packages for what no workbook writer here
+//! produces: stored zips ([`stored_zip`]) holding minimal xlsx
+//! ([`minimal_xlsx`]) and OpenDocument ([`minimal_ods`]) parts, and OLE
+//! compound files ([`compound_file`]) holding BIFF8 xls workbooks
+//! ([`minimal_xls`]) or just stream names (encrypted packages, foreign
+//! documents).
 
 use std::path::Path;
 
@@ -522,65 +527,218 @@ pub fn minimal_ods(styles: &str, tables: &str) -> Vec<u8> {
     ])
 }
 
-/// A minimal OLE compound file (version 3, 512-byte sectors) whose directory
-/// lists a root entry and empty streams named `streams`: enough for a reader
-/// to see which streams exist. Layout per [MS-CFB] §2.2 (header), §2.3
-/// (FAT), §2.6 (directory entries): sector 0 holds the FAT, sector 1 the
-/// directory (at most three streams).
-pub fn compound_file(streams: &[&str]) -> Vec<u8> {
+/// A minimal OLE compound file (version 3, 512-byte sectors) holding the
+/// named streams. Layout per [MS-CFB] §2.2 (header), §2.3 (FAT), §2.6
+/// (directory entries): sector 0 holds the FAT, sector 1 the directory
+/// (root entry plus at most three streams), then each stream's sectors in
+/// turn. A stream's content must be empty or at least 4096 bytes long (the
+/// size from which streams live in ordinary sectors; smaller ones would need
+/// a mini stream, which this builder does not write).
+pub fn compound_file(streams: &[(&str, &[u8])]) -> Vec<u8> {
     assert!(streams.len() <= 3, "one directory sector holds four entries");
     const END_OF_CHAIN: u32 = 0xFFFF_FFFE;
     const FREE: u32 = 0xFFFF_FFFF;
     const FAT_SECTOR: u32 = 0xFFFF_FFFD;
+    let put32 = |buf: &mut [u8], at: usize, v: u32| buf[at..at + 4].copy_from_slice(&v.to_le_bytes());
+    let put16 = |buf: &mut [u8], at: usize, v: u16| buf[at..at + 2].copy_from_slice(&v.to_le_bytes());
     let mut header = vec![0u8; 512];
     header[..8].copy_from_slice(&[0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1]);
-    header[24..26].copy_from_slice(&0x003Eu16.to_le_bytes()); // minor version
-    header[26..28].copy_from_slice(&3u16.to_le_bytes()); // major version
-    header[28..30].copy_from_slice(&0xFFFEu16.to_le_bytes()); // byte order
-    header[30..32].copy_from_slice(&9u16.to_le_bytes()); // sector shift: 512
-    header[32..34].copy_from_slice(&6u16.to_le_bytes()); // mini sector shift: 64
-    header[44..48].copy_from_slice(&1u32.to_le_bytes()); // FAT sectors
-    header[48..52].copy_from_slice(&1u32.to_le_bytes()); // first directory sector
-    header[56..60].copy_from_slice(&4096u32.to_le_bytes()); // mini stream cutoff
-    header[60..64].copy_from_slice(&END_OF_CHAIN.to_le_bytes()); // first mini FAT sector
-    header[64..68].copy_from_slice(&0u32.to_le_bytes()); // mini FAT sectors
-    header[68..72].copy_from_slice(&END_OF_CHAIN.to_le_bytes()); // first DIFAT sector
-    header[72..76].copy_from_slice(&0u32.to_le_bytes()); // DIFAT sectors
+    put16(&mut header, 24, 0x003E); // minor version
+    put16(&mut header, 26, 3); // major version
+    put16(&mut header, 28, 0xFFFE); // byte order
+    put16(&mut header, 30, 9); // sector shift: 512
+    put16(&mut header, 32, 6); // mini sector shift: 64
+    put32(&mut header, 44, 1); // FAT sectors
+    put32(&mut header, 48, 1); // first directory sector
+    put32(&mut header, 56, 4096); // mini stream cutoff
+    put32(&mut header, 60, END_OF_CHAIN); // first mini FAT sector
+    put32(&mut header, 64, 0); // mini FAT sectors
+    put32(&mut header, 68, END_OF_CHAIN); // first DIFAT sector
+    put32(&mut header, 72, 0); // DIFAT sectors
     for i in 0..109 {
-        let id = if i == 0 { 0 } else { FREE };
-        header[76 + 4 * i..80 + 4 * i].copy_from_slice(&id.to_le_bytes());
+        put32(&mut header, 76 + 4 * i, if i == 0 { 0 } else { FREE });
     }
-    let mut fat = vec![0u8; 512];
-    for i in 0..128 {
-        let v = match i {
-            0 => FAT_SECTOR,
-            1 => END_OF_CHAIN,
-            _ => FREE,
-        };
-        fat[4 * i..4 * i + 4].copy_from_slice(&v.to_le_bytes());
+    let mut fat = vec![FREE; 128];
+    fat[0] = FAT_SECTOR;
+    fat[1] = END_OF_CHAIN;
+    let mut data = Vec::new();
+    let mut starts = Vec::new();
+    let mut next_sector = 2u32;
+    for (_, content) in streams {
+        assert!(content.is_empty() || content.len() >= 4096, "stream content must be empty or at least 4096 bytes");
+        if content.is_empty() {
+            starts.push(END_OF_CHAIN);
+            continue;
+        }
+        let sectors = content.len().div_ceil(512) as u32;
+        assert!(next_sector + sectors <= 128, "one FAT sector maps 128 sectors");
+        starts.push(next_sector);
+        for k in 0..sectors {
+            let id = next_sector + k;
+            fat[id as usize] = if k + 1 == sectors { END_OF_CHAIN } else { id + 1 };
+        }
+        next_sector += sectors;
+        let mut padded = content.to_vec();
+        padded.resize(sectors as usize * 512, 0);
+        data.extend_from_slice(&padded);
     }
+    let fat: Vec<u8> = fat.iter().flat_map(|v| v.to_le_bytes()).collect();
     let mut dir = vec![0u8; 512];
-    let names: Vec<&str> = std::iter::once("Root Entry").chain(streams.iter().copied()).collect();
+    let names: Vec<&str> = std::iter::once("Root Entry").chain(streams.iter().map(|(n, _)| *n)).collect();
     for (i, name) in names.iter().enumerate() {
         let e = &mut dir[128 * i..128 * (i + 1)];
         let utf16: Vec<u16> = name.encode_utf16().collect();
         for (k, u) in utf16.iter().enumerate() {
-            e[2 * k..2 * k + 2].copy_from_slice(&u.to_le_bytes());
+            put16(e, 2 * k, *u);
         }
-        e[64..66].copy_from_slice(&(((utf16.len() + 1) * 2) as u16).to_le_bytes());
+        put16(e, 64, ((utf16.len() + 1) * 2) as u16);
         e[66] = if i == 0 { 5 } else { 2 }; // root storage / stream
         e[67] = 1; // black
-        e[68..72].copy_from_slice(&FREE.to_le_bytes()); // left sibling
-        let right = if i > 0 && i + 1 < names.len() { (i + 1) as u32 } else { FREE };
-        e[72..76].copy_from_slice(&right.to_le_bytes());
-        let child = if i == 0 && names.len() > 1 { 1 } else { FREE };
-        e[76..80].copy_from_slice(&child.to_le_bytes());
-        e[116..120].copy_from_slice(&END_OF_CHAIN.to_le_bytes()); // start sector
-        e[120..124].copy_from_slice(&0u32.to_le_bytes()); // size
+        put32(e, 68, FREE); // left sibling
+        put32(e, 72, if i > 0 && i + 1 < names.len() { (i + 1) as u32 } else { FREE }); // right sibling
+        put32(e, 76, if i == 0 && names.len() > 1 { 1 } else { FREE }); // child
+        let (start, size) = if i == 0 { (END_OF_CHAIN, 0) } else { (starts[i - 1], streams[i - 1].1.len() as u32) };
+        put32(e, 116, start);
+        put32(e, 120, size);
     }
     for i in names.len()..4 {
-        let e = &mut dir[128 * i..128 * (i + 1)];
-        e[68..80].copy_from_slice(&[0xFF; 12]);
+        dir[128 * i + 68..128 * i + 80].copy_from_slice(&[0xFF; 12]);
     }
-    [header, fat, dir].concat()
+    [header, fat, dir, data].concat()
+}
+
+/// One BIFF8 record: type, length, data ([MS-XLS] §2.1.4).
+fn biff_record(out: &mut Vec<u8>, typ: u16, data: &[u8]) {
+    out.extend_from_slice(&typ.to_le_bytes());
+    out.extend_from_slice(&(data.len() as u16).to_le_bytes());
+    out.extend_from_slice(data);
+}
+
+/// A cell of [`minimal_xls`].
+#[derive(Debug, Clone)]
+pub enum XlsCell {
+    /// A Number record; `date` gives it the cell format with built-in
+    /// number format 14 (a date).
+    Number { x: f64, date: bool },
+    /// A Label record (BIFF8 unicode string).
+    Label(&'static str),
+    /// A BoolErr record holding a boolean.
+    Bool(bool),
+    /// A BoolErr record holding an error code ([MS-XLS] §2.5.17: 0x07 #DIV/0!,
+    /// 0x2A #N/A, …).
+    Error(u8),
+    /// A Formula record with a cached number and parsed tokens `rgce`
+    /// ([MS-XLS] §2.5.198); `1+2` is `[0x1E, 1, 0, 0x1E, 2, 0, 0x03]`.
+    Formula { cached: f64, rgce: Vec<u8> },
+}
+
+/// One sheet of [`minimal_xls`]: name, `hsState` (0 visible, 1 hidden,
+/// 2 very hidden), cells at zero-based (row, col), merged ranges
+/// (first row, last row, first col, last col).
+pub struct XlsSheet {
+    /// Sheet name (ASCII).
+    pub name: &'static str,
+    /// `hsState` of the BoundSheet8 record.
+    pub state: u8,
+    /// Cells.
+    pub cells: Vec<(u16, u16, XlsCell)>,
+    /// Merged ranges as (first row, last row, first col, last col).
+    pub merged: Vec<(u16, u16, u16, u16)>,
+}
+
+/// A BIFF8 workbook (an xls file): a compound file whose `Workbook` stream
+/// holds the globals (BOF, DateMode when `date1904`, two XF records — 0
+/// general, 1 with number format 14 —, a BoundSheet8 per sheet, EOF) and a
+/// substream per sheet (BOF, cells, MergeCells, EOF). Record layouts per
+/// [MS-XLS] §2.4 (BOF 2.4.21, DateMode 2.4.77, XF 2.4.353, BoundSheet8
+/// 2.4.28, Number 2.4.180, Label 2.4.148, BoolErr 2.4.24, Formula 2.4.127,
+/// MergeCells 2.4.168, EOF 2.4.103).
+pub fn minimal_xls(sheets: &[XlsSheet], date1904: bool) -> Vec<u8> {
+    let bof = |dt: u16| {
+        let mut d = vec![0u8; 16];
+        d[..2].copy_from_slice(&0x0600u16.to_le_bytes());
+        d[2..4].copy_from_slice(&dt.to_le_bytes());
+        d
+    };
+    let xf = |ifmt: u16| {
+        let mut d = vec![0u8; 20];
+        d[2..4].copy_from_slice(&ifmt.to_le_bytes());
+        d
+    };
+    // The globals, with the sheets' stream offsets patched in afterwards.
+    let mut globals = Vec::new();
+    biff_record(&mut globals, 0x0809, &bof(0x0005));
+    if date1904 {
+        biff_record(&mut globals, 0x0022, &1u16.to_le_bytes());
+    }
+    biff_record(&mut globals, 0x00E0, &xf(0));
+    biff_record(&mut globals, 0x00E0, &xf(14));
+    let mut patches = Vec::new();
+    for sh in sheets {
+        let mut d = vec![0u8; 4];
+        d.push(sh.state);
+        d.push(0); // worksheet
+        d.push(sh.name.len() as u8);
+        d.push(0); // 8-bit characters
+        d.extend_from_slice(sh.name.as_bytes());
+        patches.push(globals.len() + 4);
+        biff_record(&mut globals, 0x0085, &d);
+    }
+    biff_record(&mut globals, 0x000A, &[]);
+    let mut stream = globals;
+    for (k, sh) in sheets.iter().enumerate() {
+        let pos = stream.len() as u32;
+        stream[patches[k]..patches[k] + 4].copy_from_slice(&pos.to_le_bytes());
+        biff_record(&mut stream, 0x0809, &bof(0x0010));
+        for (r, c, cell) in &sh.cells {
+            let mut d = Vec::new();
+            d.extend_from_slice(&r.to_le_bytes());
+            d.extend_from_slice(&c.to_le_bytes());
+            let xf = if matches!(cell, XlsCell::Number { date: true, .. }) { 1u16 } else { 0 };
+            d.extend_from_slice(&xf.to_le_bytes());
+            let typ = match cell {
+                XlsCell::Number { x, .. } => {
+                    d.extend_from_slice(&x.to_le_bytes());
+                    0x0203
+                }
+                XlsCell::Label(t) => {
+                    d.extend_from_slice(&(t.len() as u16).to_le_bytes());
+                    d.push(0); // 8-bit characters
+                    d.extend_from_slice(t.as_bytes());
+                    0x0204
+                }
+                XlsCell::Bool(b) => {
+                    d.extend_from_slice(&[u8::from(*b), 0]);
+                    0x0205
+                }
+                XlsCell::Error(code) => {
+                    d.extend_from_slice(&[*code, 1]);
+                    0x0205
+                }
+                XlsCell::Formula { cached, rgce } => {
+                    d.extend_from_slice(&cached.to_le_bytes());
+                    d.extend_from_slice(&[0; 2]); // grbit
+                    d.extend_from_slice(&[0; 4]); // chn
+                    d.extend_from_slice(&(rgce.len() as u16).to_le_bytes());
+                    d.extend_from_slice(rgce);
+                    0x0006
+                }
+            };
+            biff_record(&mut stream, typ, &d);
+        }
+        if !sh.merged.is_empty() {
+            let mut d = (sh.merged.len() as u16).to_le_bytes().to_vec();
+            for (r0, r1, c0, c1) in &sh.merged {
+                for v in [r0, r1, c0, c1] {
+                    d.extend_from_slice(&v.to_le_bytes());
+                }
+            }
+            biff_record(&mut stream, 0x00E5, &d);
+        }
+        biff_record(&mut stream, 0x000A, &[]);
+    }
+    if stream.len() < 4096 {
+        stream.resize(4096, 0);
+    }
+    compound_file(&[("Workbook", &stream)])
 }
