@@ -142,8 +142,8 @@ fn workbook_seeds() -> Vec<Vec<u8>> {
         "",
         r#"<table:table table:name="W"><table:table-row><table:table-cell office:value-type="string"><text:p>x</text:p></table:table-cell><table:table-cell office:value-type="string"><text:p>y</text:p></table:table-cell><table:table-cell office:value-type="string"><text:p>#linear(y, x)</text:p></table:table-cell></table:table-row><table:table-row><table:table-cell office:value-type="float" office:value="1"/><table:table-cell office:value-type="float" office:value="2"/></table:table-row><table:table-row><table:table-cell office:value-type="float" office:value="2"/><table:table-cell office:value-type="float" office:value="3.5"/></table:table-row><table:table-row><table:table-cell office:value-type="float" office:value="3"/><table:table-cell table:formula="of:=[.B3]*2" office:value-type="float" office:value="7"/></table:table-row></table:table>"#,
     ));
-    seeds.push(workbooks::compound_file(&["Workbook"]));
-    seeds.push(workbooks::compound_file(&["EncryptionInfo", "EncryptedPackage"]));
+    seeds.push(workbooks::compound_file(&[("Workbook", &[])]));
+    seeds.push(workbooks::compound_file(&[("EncryptionInfo", &[]), ("EncryptedPackage", &[])]));
     let path = std::env::temp_dir().join(format!("plumb-fuzz-seed-{}.xlsx", std::process::id()));
     let x: Vec<Option<f64>> = (0..8).map(|i| Some(i as f64)).collect();
     let y: Vec<Option<f64>> = (0..8).map(|i| Some(1.0 + 2.0 * i as f64 + (i % 3) as f64)).collect();

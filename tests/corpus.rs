@@ -166,9 +166,9 @@ fn cases() -> Vec<Case> {
         case("truncated_head", "xlsx", ok_book[..40].to_vec(), 2, &["truncated or damaged"], false),
         case("zip_of_text", "xlsx", stored_zip(&[("notes.txt", b"bay 3 lamps replaced")]), 2, &["zip archive that holds no workbook"], false),
         case("zip_empty", "xlsx", stored_zip(&[]), 2, &["zip archive that holds no workbook"], false),
-        case("encrypted_ole", "xlsx", compound_file(&["EncryptionInfo", "EncryptedPackage"]), 2, &["password-protected", "unprotected copy"], false),
-        case("ole_word_document", "xls", compound_file(&["WordDocument"]), 2, &["holds no workbook"], false),
-        case("ole_truncated", "xls", compound_file(&["Workbook"])[..600].to_vec(), 2, &["truncated or damaged"], false),
+        case("encrypted_ole", "xlsx", compound_file(&[("EncryptionInfo", &[]), ("EncryptedPackage", &[])]), 2, &["password-protected", "unprotected copy"], false),
+        case("ole_word_document", "xls", compound_file(&[("WordDocument", &[])]), 2, &["holds no workbook"], false),
+        case("ole_truncated", "xls", compound_file(&[("Workbook", &[])])[..600].to_vec(), 2, &["truncated or damaged"], false),
         case(
             "oversized_sheet",
             "xlsx",
