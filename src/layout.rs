@@ -562,6 +562,12 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
             continue;
         }
         let col = free_columns(grid, &request_cells, &claimed[si], place.last_col + 1, width, top, place.last_row);
+        // Past the sheet's last column (a table reaching column XFD) there is
+        // no room: the per-row columns are left out; the result sheets still
+        // hold the fit.
+        if u64::from(col) + u64::from(width) > u64::from(crate::cells::MAX_COLS) {
+            continue;
+        }
         claimed[si].push((col, top, place.last_row));
         for (k, rc) in o.rows.iter().enumerate() {
             let c = col + k as u32;

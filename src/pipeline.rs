@@ -328,6 +328,40 @@ fn evaluate_one(
     (report, problems)
 }
 
+/// Source cells the xlsx format cannot hold as they are, each as a located
+/// warning: a text longer than [`write::MAX_CELL_TEXT`] characters (written
+/// cut to that length) and a number that is infinite or not a number
+/// (written as the text `INF`, `-INF` or `NAN`; no spreadsheet program writes
+/// such a number, a hand-made file can). Request cells are replaced by their
+/// outcome and not reported.
+pub fn unwritable_cells(book: &Workbook, requests: &HashSet<CellAddress>) -> Vec<Problem> {
+    use crate::cells::Value;
+    let mut out = Vec::new();
+    for g in &book.sheets {
+        for (r, c, v) in g.cells() {
+            let why = match v {
+                Value::Text(t) if write::over_long_text(t) => format!(
+                    "this cell's text is {} characters long, more than the {} an xlsx cell holds; the output keeps its first {}",
+                    t.chars().count(),
+                    "32,767",
+                    "32,767"
+                ),
+                Value::Number(x) if !x.is_finite() => format!(
+                    "this cell holds the number {x}, which the xlsx format cannot store; the output shows it as the text {}",
+                    if x.is_nan() { "NAN" } else if x > 0.0 { "INF" } else { "-INF" }
+                ),
+                _ => continue,
+            };
+            let at = CellAddress::new(g.name.clone(), r, c);
+            if requests.contains(&at) {
+                continue;
+            }
+            out.push(Problem::warning(why).at(at).help("shorten or correct the cell in the input if the output must hold it whole"));
+        }
+    }
+    out
+}
+
 /// `plumb run`: evaluates every request and writes the output workbook.
 pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError> {
     let out = config.output.clone().unwrap_or_else(|| default_output(&config.input));
@@ -340,7 +374,12 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     let bytes = std::fs::read(&config.input).map_err(|source| RunError::Input { path: config.input.clone(), source })?;
     let sha = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
     drop(bytes);
-    let (book, mut summary) = evaluate(&config.input, registry)?;
+    let (book, format) = read::read_workbook_with_format(&config.input).map_err(RunError::Read)?;
+    let mut summary = evaluate_book(&book, &file_label(&config.input), registry);
+    let requests: HashSet<CellAddress> = summary.reports.iter().map(|r| r.cell.clone()).collect();
+    for p in unwritable_cells(&book, &requests) {
+        summary.problems.push(p.in_file(file_label(&config.input)));
+    }
     let created = config.created_unix.unwrap_or_else(|| {
         std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs() as i64).unwrap_or(0)
     });
@@ -351,8 +390,9 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         time: iso_time(created),
     };
     let mut laid = layout::lay_out(&book, &summary.reports, &info);
-    let ext = config.input.extension().map(|e| e.to_string_lossy().to_lowercase()).unwrap_or_default();
-    laid.keep_formulas = ext != "ods";
+    // Told from the content, not the name: an ods saved as .xlsx still has
+    // OpenFormula syntax, which would be a broken formula in xlsx.
+    laid.keep_formulas = format != read::Format::Ods;
     write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
     summary.output = Some(out);
     Ok(summary)

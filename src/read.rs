@@ -240,6 +240,26 @@ impl Fault {
 /// # Ok::<(), plumb::read::ReadError>(())
 /// ```
 pub fn read_workbook(path: &Path) -> Result<Workbook, ReadError> {
+    read_workbook_with_format(path).map(|(book, _)| book)
+}
+
+/// The format a workbook was read from, told from its content.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    /// Office Open XML (xlsx, xlsm).
+    Xlsx,
+    /// Excel binary workbook.
+    Xlsb,
+    /// Legacy Excel (BIFF in a compound file).
+    Xls,
+    /// OpenDocument spreadsheet; its formulas are in OpenFormula syntax,
+    /// not that of xlsx.
+    Ods,
+}
+
+/// As [`read_workbook`], also saying which format the content was (an ods
+/// file saved as `.xlsx` is still [`Format::Ods`]).
+pub fn read_workbook_with_format(path: &Path) -> Result<(Workbook, Format), ReadError> {
     let file = path.display().to_string();
     let head = read_head(path).map_err(|e| Fault::Io(e).with_file(&file))?;
     let ext = extension_of(&file);
@@ -251,7 +271,7 @@ pub fn read_workbook(path: &Path) -> Result<Workbook, ReadError> {
 pub fn read_workbook_bytes(bytes: &[u8], name_for_messages: &str) -> Result<Workbook, ReadError> {
     let head = &bytes[..bytes.len().min(HEAD_LEN as usize)];
     let ext = extension_of(name_for_messages);
-    read_guarded(head, ext.as_deref(), || Ok(Cursor::new(bytes))).map_err(|f| f.with_file(name_for_messages))
+    read_guarded(head, ext.as_deref(), || Ok(Cursor::new(bytes))).map(|(book, _)| book).map_err(|f| f.with_file(name_for_messages))
 }
 
 fn read_head(path: &Path) -> std::io::Result<Vec<u8>> {
@@ -274,7 +294,7 @@ fn read_guarded<RS: Read + Seek>(
     head: &[u8],
     ext: Option<&str>,
     open: impl Fn() -> std::io::Result<RS>,
-) -> Result<Workbook, Fault> {
+) -> Result<(Workbook, Format), Fault> {
     let _quiet = QuietPanics::begin();
     match catch_unwind(AssertUnwindSafe(|| read_any(head, ext, &open))) {
         Ok(result) => result,
@@ -399,7 +419,7 @@ fn read_any<RS: Read + Seek>(
     head: &[u8],
     ext: Option<&str>,
     open: &dyn Fn() -> std::io::Result<RS>,
-) -> Result<Workbook, Fault> {
+) -> Result<(Workbook, Format), Fault> {
     let mut book = match sniff(head) {
         Sniffed::Other(found) => return Err(Fault::NotAWorkbook(found)),
         Sniffed::Compound => open_compound(open)?,
@@ -421,7 +441,13 @@ fn read_any<RS: Read + Seek>(
     if sheets.is_empty() {
         return Err(Fault::NoSheets);
     }
-    Ok(Workbook { sheets })
+    let format = match book {
+        Book::Xlsx(_) => Format::Xlsx,
+        Book::Xlsb(_) => Format::Xlsb,
+        Book::Xls(_) => Format::Xls,
+        Book::Ods(_) => Format::Ods,
+    };
+    Ok((Workbook { sheets }, format))
 }
 
 /// An OLE compound file is an xls workbook, or an xlsx/xlsb encrypted with

@@ -232,9 +232,10 @@ fn header_text(v: Value) -> Option<String> {
 /// candidate table.
 fn candidate_tables(grid: &Grid, requests: &HashSet<(u32, u32)>) -> Vec<CellRange> {
     let Some(ext) = grid.extent() else { return Vec::new() };
+    let titles = merged_titles(grid, requests);
     let mut used = vec![(u32::MAX, 0u32); ext.cols() as usize];
     for (r, c, v) in grid.cells() {
-        if v.is_blank() || requests.contains(&(r, c)) {
+        if v.is_blank() || requests.contains(&(r, c)) || titles.contains(&(r, c)) {
             continue;
         }
         let u = &mut used[(c - ext.first_col) as usize];
@@ -257,6 +258,27 @@ fn candidate_tables(grid: &Grid, requests: &HashSet<(u32, u32)>) -> Vec<CellRang
         });
     }
     out.extend(run);
+    out
+}
+
+/// Title cells: the first cell of a merged range more than one column wide
+/// that is the only non-blank cell of its row (request cells aside), such as
+/// a title merged across the top of a table. They are not part of any table,
+/// so the table's header row is the row below them.
+fn merged_titles(grid: &Grid, requests: &HashSet<(u32, u32)>) -> HashSet<(u32, u32)> {
+    let mut out = HashSet::new();
+    let Some(ext) = grid.extent() else { return out };
+    for m in &grid.merged {
+        if m.cols() < 2 || grid.value(m.first_row, m.first_col).is_blank() {
+            continue;
+        }
+        let alone = (ext.first_col..=ext.last_col)
+            .filter(|&c| c != m.first_col && !requests.contains(&(m.first_row, c)))
+            .all(|c| grid.value(m.first_row, c).is_blank());
+        if alone {
+            out.insert((m.first_row, m.first_col));
+        }
+    }
     out
 }
 
@@ -672,7 +694,7 @@ pub fn resolve(
                     return Err(ctx.err(*span, format!("{} is written {}(column=value)", o.name, o.name)));
                 }
                 if named.insert(k.clone(), (value, *span)).is_some() {
-                    return Err(ctx.err(*span, format!("the option {k} is given twice")));
+                    return Err(ctx.err(*span, format!("the option {k} is given twice")).help(format!("keep one {k}=")));
                 }
             }
             Arg::Group { name, entries, span } => {
@@ -954,6 +976,9 @@ pub fn resolve(
                 Factor::Cat(c) => indicator_columns(&ctx, c, &keep, &bases, *span)?,
                 Factor::Product(_) => Vec::new(),
             };
+            if expanded.len().saturating_mul(cols.len()) > MAX_MODEL_COLUMNS {
+                return Err(ctx.err(*span, format!("this term makes more than {MAX_MODEL_COLUMNS} model columns")).help("use fewer levels or fewer products"));
+            }
             let mut next = Vec::new();
             for (la, va) in &expanded {
                 for (lb, vb) in &cols {
@@ -1053,6 +1078,13 @@ fn indicator_columns(ctx: &Ctx, c: &Cat, keep: &[usize], bases: &BTreeMap<String
             None => return Err(ctx.err(span, format!("the text column {} has no values in the rows used", c.name))),
         },
     };
+    // Checked before any column is built: a text column of unique labels
+    // (an id) would otherwise cost levels × rows numbers of memory.
+    if levels.len() > MAX_MODEL_COLUMNS {
+        return Err(ctx
+            .err(span, format!("the text column {} has {} levels in the rows used, which would make more than {MAX_MODEL_COLUMNS} model columns", c.name, levels.len()))
+            .help("a text column of labels that are all different (such as an id) cannot be a term; drop it or use a column with fewer levels"));
+    }
     if levels.len() < 2 {
         return Err(ctx
             .err(span, format!("the text column {} has only one level ({base}) in the rows used, so it explains nothing", c.name))

@@ -120,6 +120,34 @@ fn date_style(kind: DateKind) -> Style {
     }
 }
 
+/// The longest text one cell of the output format holds, in UTF-16 units
+/// (rust_xlsxwriter refuses longer strings; the spreadsheet programs'
+/// documented cell limit).
+pub const MAX_CELL_TEXT: usize = 32_767;
+
+/// The longest note text the writer accepts (the cell limit less the room it
+/// keeps for an author prefix).
+const MAX_NOTE_TEXT: usize = MAX_CELL_TEXT - 54;
+
+/// `t` cut to at most `max` UTF-16 units, on a character boundary. A longer
+/// source text cannot be stored in an xlsx cell; the pipeline reports every
+/// such cell as a warning ([`over_long_text`]).
+pub fn clip_text(t: &str, max: usize) -> &str {
+    let mut units = 0;
+    for (i, ch) in t.char_indices() {
+        units += ch.len_utf16();
+        if units > max {
+            return &t[..i];
+        }
+    }
+    t
+}
+
+/// Whether `t` is longer than one output cell holds.
+pub fn over_long_text(t: &str) -> bool {
+    t.len() > MAX_CELL_TEXT && t.encode_utf16().count() > MAX_CELL_TEXT
+}
+
 fn xerr(path: &Path) -> impl Fn(XlsxError) -> WriteError + '_ {
     move |source| WriteError::Xlsx { path: path.to_path_buf(), source }
 }
@@ -133,7 +161,7 @@ fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell,
     };
     if let Some(target) = &cell.link {
         let text = match &cell.content {
-            Content::Text(t) => t.clone(),
+            Content::Text(t) => clip_text(t, MAX_CELL_TEXT).to_string(),
             Content::Number(x) => format!("{x}"),
             _ => String::new(),
         };
@@ -143,7 +171,7 @@ fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell,
         write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
     }
     if let Some(n) = &cell.note {
-        ws.insert_note(row, col, &Note::new(n).add_author_prefix(false)).map_err(&e)?;
+        ws.insert_note(row, col, &Note::new(clip_text(n, MAX_NOTE_TEXT)).add_author_prefix(false)).map_err(&e)?;
     }
     Ok(())
 }
@@ -170,6 +198,7 @@ fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, conte
             }
         }
         Content::Text(t) => {
+            let t = clip_text(t, MAX_CELL_TEXT);
             if style == Style::Plain {
                 ws.write_string(row, col, t).map_err(&e)?;
             } else {
@@ -191,7 +220,7 @@ fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, conte
             let result = match cached {
                 Cached::Empty => String::new(),
                 Cached::Number(x) => format!("{x}"),
-                Cached::Text(t) => t.clone(),
+                Cached::Text(t) => clip_text(t, MAX_CELL_TEXT).to_string(),
                 Cached::Bool(b) => if *b { "TRUE".into() } else { "FALSE".into() },
                 Cached::Error(err) => err.as_str().into(),
             };
@@ -448,6 +477,18 @@ mod tests {
         assert_eq!(significant_code(0.000123456), "0.000000000");
         assert_eq!(significant_code(1.0e-9), "0.00000E+00");
         assert_eq!(significant_code(123456789.0), "0.00000E+00");
+    }
+
+    #[test]
+    fn long_text_is_clipped_on_a_character_boundary() {
+        assert_eq!(clip_text("abc", 2), "ab");
+        assert_eq!(clip_text("abc", 5), "abc");
+        // '🌱' is two UTF-16 units: it does not fit in the last one.
+        assert_eq!(clip_text("a🌱", 2), "a");
+        let long = "x".repeat(MAX_CELL_TEXT + 10);
+        assert!(over_long_text(&long));
+        assert_eq!(clip_text(&long, MAX_CELL_TEXT).len(), MAX_CELL_TEXT);
+        assert!(!over_long_text(&"é".repeat(MAX_CELL_TEXT)));
     }
 
     #[test]

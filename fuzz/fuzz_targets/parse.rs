@@ -1,0 +1,9 @@
+//! cargo-fuzz target: parse, print, reparse (see fuzz/targets.rs).
+#![no_main]
+
+#[path = "../targets.rs"]
+mod targets;
+
+libfuzzer_sys::fuzz_target!(|data: &[u8]| {
+    targets::parse_print_reparse(data);
+});
