@@ -508,8 +508,10 @@ mod xls_guard {
         // calamine follows sector chains without a bound: a chain that loops
         // back on itself makes it grow a buffer until memory runs out
         // (found by fuzzing: examples/fuzz_stable.rs).
-        if fat_table(file).is_some_and(|fat| has_loop(&fat)) {
-            return Err(Fault::Damaged(None));
+        if let Some(fat) = fat_table(file) {
+            if has_loop(&fat) || minifat_table(file, &fat).is_some_and(|m| has_loop(&m)) {
+                return Err(Fault::Damaged(None));
+            }
         }
         let Some(stream) = workbook_stream(file) else { return Ok(()) };
         for (name, extent, declared) in sheet_extents(&stream) {
@@ -581,6 +583,17 @@ mod xls_guard {
             fat.extend((0..sector_size / 4).filter_map(|i| u32_at(s, 4 * i)));
         }
         Some(fat)
+    }
+
+    /// The mini FAT ([MS-CFB] §2.4), whose chain the FAT gives.
+    fn minifat_table(file: &[u8], fat: &[u32]) -> Option<Vec<u32>> {
+        let sector_size = if u16_at(file, 30)? == 12 { 4096usize } else { 512 };
+        let sector = |id: u32| -> Option<&[u8]> {
+            let start = (id as usize + 1).checked_mul(sector_size)?;
+            file.get(start..start + sector_size)
+        };
+        let bytes = chain(u32_at(file, 60)?, &sector, fat, usize::MAX)?;
+        Some((0..bytes.len() / 4).filter_map(|i| u32_at(&bytes, 4 * i)).collect())
     }
 
     /// Whether some chain of the table returns to a sector it passed: each
