@@ -14,7 +14,10 @@
 //! truncation; half of the workbook inputs are mutated inside the sheet XML
 //! and re-packed with correct checksums, so the readers see damaged content
 //! rather than only a damaged archive. Deterministic for a given seed.
-//! Crashes are written to `fuzz/artifacts/stable-TARGET/`.
+//! Crashes are written to `fuzz/artifacts/stable-TARGET/`. With
+//! `PLUMB_FUZZ_LAST=FILE` each input is written to FILE before it runs, so
+//! an input that kills the process (out of memory) can be found; run under
+//! `ulimit -v` to turn a runaway allocation into an abort.
 
 #[path = "../fuzz/targets.rs"]
 mod targets;
@@ -196,6 +199,7 @@ fn main() {
     let (start, budget) = (Instant::now(), Duration::from_secs(secs));
     let (mut runs, mut crashes) = (0u64, 0u64);
     let mut pool: Vec<Vec<u8>> = seeds.clone();
+    let last_input = std::env::var_os("PLUMB_FUZZ_LAST").map(std::path::PathBuf::from);
     while start.elapsed() < budget {
         let input = if target == "workbook" && rng.below(2) == 0 {
             let mut xml = xml_seeds[rng.below(xml_seeds.len())].clone().into_bytes();
@@ -206,6 +210,11 @@ fn main() {
             mutate(&mut rng, &mut d);
             d
         };
+        if let Some(last) = &last_input {
+            // Kept on disk before the run, so an input that kills the
+            // process (out of memory, stack overflow) is not lost.
+            let _ = std::fs::write(last, &input);
+        }
         let result = catch_unwind(AssertUnwindSafe(|| match target.as_str() {
             "parse" => targets::parse_print_reparse(&input),
             _ => targets::read_and_evaluate(&input, "fuzz.xlsx"),

@@ -505,6 +505,14 @@ mod xls_guard {
 
     /// Refuses an xls whose sheets span more than [`MAX_CELLS`].
     pub(super) fn check(file: &[u8]) -> Result<(), Fault> {
+        // calamine follows sector chains without a bound: a chain that loops
+        // back on itself makes it grow a buffer until memory runs out
+        // (found by fuzzing: examples/fuzz_stable.rs).
+        if let Some(fat) = fat_table(file) {
+            if has_loop(&fat) || minifat_table(file, &fat).is_some_and(|m| has_loop(&m)) {
+                return Err(Fault::Damaged(None));
+            }
+        }
         let Some(stream) = workbook_stream(file) else { return Ok(()) };
         for (name, extent, declared) in sheet_extents(&stream) {
             let area = |r: &CellRange| u64::from(r.rows()) * u64::from(r.cols());
@@ -541,6 +549,76 @@ mod xls_guard {
         }
         out.truncate(len);
         Some(out)
+    }
+
+    /// The file allocation table ([MS-CFB] §2.3), read as
+    /// [`workbook_stream`] reads it; `None` where it cannot be followed.
+    fn fat_table(file: &[u8]) -> Option<Vec<u32>> {
+        let sector_size = match u16_at(file, 30)? {
+            9 => 512usize,
+            12 => 4096,
+            _ => return None,
+        };
+        let sector = |id: u32| -> Option<&[u8]> {
+            let start = (id as usize + 1).checked_mul(sector_size)?;
+            file.get(start..start + sector_size)
+        };
+        let n_sectors = file.len() / sector_size;
+        let mut difat: Vec<u32> = (0..109).filter_map(|i| u32_at(file, 76 + 4 * i)).collect();
+        let mut next = u32_at(file, 68)?;
+        let mut guard = 0;
+        while next < MAX_REGULAR {
+            guard += 1;
+            if guard > n_sectors {
+                return None;
+            }
+            let s = sector(next)?;
+            let per = sector_size / 4 - 1;
+            difat.extend((0..per).filter_map(|i| u32_at(s, 4 * i)));
+            next = u32_at(s, 4 * per)?;
+        }
+        let mut fat = Vec::new();
+        for id in difat.into_iter().filter(|id| *id < MAX_REGULAR) {
+            let s = sector(id)?;
+            fat.extend((0..sector_size / 4).filter_map(|i| u32_at(s, 4 * i)));
+        }
+        Some(fat)
+    }
+
+    /// The mini FAT ([MS-CFB] §2.4), whose chain the FAT gives.
+    fn minifat_table(file: &[u8], fat: &[u32]) -> Option<Vec<u32>> {
+        let sector_size = if u16_at(file, 30)? == 12 { 4096usize } else { 512 };
+        let sector = |id: u32| -> Option<&[u8]> {
+            let start = (id as usize + 1).checked_mul(sector_size)?;
+            file.get(start..start + sector_size)
+        };
+        let bytes = chain(u32_at(file, 60)?, &sector, fat, usize::MAX)?;
+        Some((0..bytes.len() / 4).filter_map(|i| u32_at(&bytes, 4 * i)).collect())
+    }
+
+    /// Whether some chain of the table returns to a sector it passed: each
+    /// entry names the next sector, so the table is a functional graph and
+    /// one pass with three marks finds any cycle. A sound file has none
+    /// (unused sectors are marked free).
+    fn has_loop(table: &[u32]) -> bool {
+        let n = table.len();
+        let mut mark = vec![0u8; n]; // 0 unseen, 1 on the current path, 2 done
+        for start in 0..n {
+            let mut path = Vec::new();
+            let mut id = start;
+            while id < n && mark[id] == 0 {
+                mark[id] = 1;
+                path.push(id);
+                id = table[id] as usize;
+            }
+            if id < n && mark[id] == 1 {
+                return true;
+            }
+            for p in path {
+                mark[p] = 2;
+            }
+        }
+        false
     }
 
     /// The content of the `Workbook` (or BIFF5 `Book`) stream.

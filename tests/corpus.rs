@@ -168,6 +168,13 @@ fn cases() -> Vec<Case> {
         case("zip_empty", "xlsx", stored_zip(&[]), 2, &["zip archive that holds no workbook"], false),
         case("encrypted_ole", "xlsx", compound_file(&[("EncryptionInfo", &[]), ("EncryptedPackage", &[])]), 2, &["password-protected", "unprotected copy"], false),
         case("ole_word_document", "xls", compound_file(&[("WordDocument", &[])]), 2, &["holds no workbook"], false),
+        // Found by fuzzing: a sector chain that loops made the xls reader
+        // grow a buffer until memory ran out.
+        case("ole_fat_loop", "xls", {
+            let mut b = compound_file(&[("Workbook", &[])]);
+            b[512 + 4..512 + 8].copy_from_slice(&1u32.to_le_bytes()); // the directory sector points to itself
+            b
+        }, 2, &["truncated or damaged"], false),
         case("ole_truncated", "xls", compound_file(&[("Workbook", &[])])[..600].to_vec(), 2, &["truncated or damaged"], false),
         case(
             "oversized_sheet",
