@@ -173,12 +173,12 @@ pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summar
     Summary { reports, problems, output: None }
 }
 
-/// Evaluates one `#predict` or `#compare` request against the fits.
-fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[&Report]) -> (Report, Vec<Problem>) {
-    let fname = parsed.function.name.to_lowercase();
-    let mut report = Report {
+/// The report of a request before anything about it is known: named after
+/// its cell, failed until it succeeds.
+fn unfinished_report(f: &FoundRequest, function: &str) -> Report {
+    Report {
         name: f.cell.to_string(),
-        function: fname.clone(),
+        function: function.to_string(),
         cell: f.cell.clone(),
         text: f.text.clone(),
         response: String::new(),
@@ -192,7 +192,13 @@ fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fi
         place: None,
         recipe: None,
         host: None,
-    };
+    }
+}
+
+/// Evaluates one `#predict` or `#compare` request against the fits.
+fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[&Report]) -> (Report, Vec<Problem>) {
+    let fname = parsed.function.name.to_lowercase();
+    let mut report = unfinished_report(f, &fname);
     let result = if fname == "predict" {
         crate::host::predict(book, &f.cell, &f.text, parsed, fits)
     } else {
@@ -223,23 +229,7 @@ fn evaluate_one(
     request_cells: &HashSet<CellAddress>,
     names: &mut HashSet<String>,
 ) -> (Report, Vec<Problem>) {
-    let mut report = Report {
-        name: f.cell.to_string(),
-        function: String::new(),
-        cell: f.cell.clone(),
-        text: f.text.clone(),
-        response: String::new(),
-        terms: Vec::new(),
-        level: 0.95,
-        rows_used: 0,
-        rows_left_out: 0,
-        status: Status::Error,
-        messages: Vec::new(),
-        outcome: None,
-        place: None,
-        recipe: None,
-        host: None,
-    };
+    let mut report = unfinished_report(f, "");
     let fail = |mut report: Report, p: Problem| {
         report.messages = vec![p.one_line()];
         report.status = Status::Error;
