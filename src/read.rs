@@ -248,9 +248,9 @@ pub fn read_workbook(path: &Path) -> Result<Workbook, ReadError> {
 pub enum Format {
     /// Office Open XML (xlsx, xlsm).
     Xlsx,
-    /// Excel binary workbook.
+    /// Binary workbook (xlsb).
     Xlsb,
-    /// Legacy Excel (BIFF in a compound file).
+    /// Legacy binary workbook (BIFF records in a compound file, xls).
     Xls,
     /// OpenDocument spreadsheet; its formulas are in OpenFormula syntax,
     /// not that of xlsx.
