@@ -554,16 +554,9 @@ mod xls_guard {
     /// The file allocation table ([MS-CFB] §2.3), read as
     /// [`workbook_stream`] reads it; `None` where it cannot be followed.
     fn fat_table(file: &[u8]) -> Option<Vec<u32>> {
-        let sector_size = match u16_at(file, 30)? {
-            9 => 512usize,
-            12 => 4096,
-            _ => return None,
-        };
-        let sector = |id: u32| -> Option<&[u8]> {
-            let start = (id as usize + 1).checked_mul(sector_size)?;
-            file.get(start..start + sector_size)
-        };
-        let n_sectors = file.len() / sector_size;
+        let size = sector_size(file)?;
+        let n_sectors = file.len() / size;
+        // DIFAT: 109 entries in the header, then a chain of DIFAT sectors.
         let mut difat: Vec<u32> = (0..109).filter_map(|i| u32_at(file, 76 + 4 * i)).collect();
         let mut next = u32_at(file, 68)?;
         let mut guard = 0;
@@ -572,26 +565,39 @@ mod xls_guard {
             if guard > n_sectors {
                 return None;
             }
-            let s = sector(next)?;
-            let per = sector_size / 4 - 1;
+            let s = sector_at(file, size, next)?;
+            let per = size / 4 - 1;
             difat.extend((0..per).filter_map(|i| u32_at(s, 4 * i)));
             next = u32_at(s, 4 * per)?;
         }
         let mut fat = Vec::new();
         for id in difat.into_iter().filter(|id| *id < MAX_REGULAR) {
-            let s = sector(id)?;
-            fat.extend((0..sector_size / 4).filter_map(|i| u32_at(s, 4 * i)));
+            let s = sector_at(file, size, id)?;
+            fat.extend((0..size / 4).filter_map(|i| u32_at(s, 4 * i)));
         }
         Some(fat)
     }
 
+    /// The sector size of a compound file's header: 512 (version 3) or
+    /// 4096 (version 4) bytes; `None` for anything else.
+    fn sector_size(file: &[u8]) -> Option<usize> {
+        match u16_at(file, 30)? {
+            9 => Some(512),
+            12 => Some(4096),
+            _ => None,
+        }
+    }
+
+    /// Sector `id` of a compound file (sector 0 follows the header sector).
+    fn sector_at(file: &[u8], size: usize, id: u32) -> Option<&[u8]> {
+        let start = (id as usize + 1).checked_mul(size)?;
+        file.get(start..start.checked_add(size)?)
+    }
+
     /// The mini FAT ([MS-CFB] §2.4), whose chain the FAT gives.
     fn minifat_table(file: &[u8], fat: &[u32]) -> Option<Vec<u32>> {
-        let sector_size = if u16_at(file, 30)? == 12 { 4096usize } else { 512 };
-        let sector = |id: u32| -> Option<&[u8]> {
-            let start = (id as usize + 1).checked_mul(sector_size)?;
-            file.get(start..start + sector_size)
-        };
+        let size = sector_size(file)?;
+        let sector = |id: u32| sector_at(file, size, id);
         let bytes = chain(u32_at(file, 60)?, &sector, fat, usize::MAX)?;
         Some((0..bytes.len() / 4).filter_map(|i| u32_at(&bytes, 4 * i)).collect())
     }
@@ -623,35 +629,9 @@ mod xls_guard {
 
     /// The content of the `Workbook` (or BIFF5 `Book`) stream.
     fn workbook_stream(file: &[u8]) -> Option<Vec<u8>> {
-        let sector_size = match u16_at(file, 30)? {
-            9 => 512usize,
-            12 => 4096,
-            _ => return None,
-        };
-        let sector = |id: u32| -> Option<&[u8]> {
-            let start = (id as usize + 1).checked_mul(sector_size)?;
-            file.get(start..start + sector_size)
-        };
-        let n_sectors = file.len() / sector_size;
-        // DIFAT: 109 entries in the header, then a chain of DIFAT sectors.
-        let mut difat: Vec<u32> = (0..109).filter_map(|i| u32_at(file, 76 + 4 * i)).collect();
-        let mut next = u32_at(file, 68)?;
-        let mut guard = 0;
-        while next < MAX_REGULAR {
-            guard += 1;
-            if guard > n_sectors {
-                return None;
-            }
-            let s = sector(next)?;
-            let per = sector_size / 4 - 1;
-            difat.extend((0..per).filter_map(|i| u32_at(s, 4 * i)));
-            next = u32_at(s, 4 * per)?;
-        }
-        let mut fat = Vec::new();
-        for id in difat.into_iter().filter(|id| *id < MAX_REGULAR) {
-            let s = sector(id)?;
-            fat.extend((0..sector_size / 4).filter_map(|i| u32_at(s, 4 * i)));
-        }
+        let size = sector_size(file)?;
+        let sector = |id: u32| sector_at(file, size, id);
+        let fat = fat_table(file)?;
         let dirs = chain(u32_at(file, 48)?, &sector, &fat, usize::MAX)?;
         let entries: Vec<&[u8]> = dirs.chunks_exact(128).collect();
         let root = entries.first()?;
