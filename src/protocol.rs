@@ -116,8 +116,9 @@ pub enum OptionValue {
     Number(f64),
     /// A word or text.
     Text(String),
-    /// `key=value` pairs of a group option.
-    Group(BTreeMap<String, String>),
+    /// The `key=value` pairs of a group option such as `start(a=40, k=0.2)`
+    /// or `base(Bay="East")`, keys as typed (trimmed), values numbers or text.
+    Group(BTreeMap<String, OptionValue>),
 }
 
 /// One column of numbers sent to a plugin.
@@ -168,8 +169,31 @@ pub struct FitRequest {
     pub weights: Option<Vec<f64>>,
     /// Confidence level for intervals, in (0, 1).
     pub level: f64,
-    /// The other options, resolved.
+    /// The model of a function whose parameter of kind
+    /// [`ParamKind::Expression`] was given (`a*exp(-k*Hours) + c`): the
+    /// formula over [`FitRequest::columns`] (every column the expression
+    /// names, in order of first use) and the parameters. Absent otherwise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub expression: Option<ModelExpression>,
+    /// The other options, resolved (group options such as `start(...)` as
+    /// [`OptionValue::Group`]); the host's own (`name`, `level`,
+    /// `intercept`, `weights`, `missing`, `data`, `base`) are not repeated
+    /// here: they are the fields above, or already applied to the rows.
     pub options: BTreeMap<String, OptionValue>,
+}
+
+/// A model expression with parameters, resolved (see [`FitRequest::expression`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModelExpression {
+    /// The expression as typed.
+    pub text: String,
+    /// The formula: [`Formula::Column`] indexes [`FitRequest::columns`],
+    /// [`Formula::Parameter`] indexes [`ModelExpression::parameters`].
+    pub formula: Formula,
+    /// The parameters' names, in the order the group option that declares
+    /// them (`start(a=40, k=0.2)`) lists them.
+    pub parameters: Vec<String>,
 }
 
 impl FitRequest {
@@ -265,6 +289,48 @@ pub struct FitOutcome {
     pub row_warnings: Vec<RowWarning>,
 }
 
+/// A fit that could not be done, in the user's terms: what an `Err` of a
+/// fit carries, and what an external plugin sends back instead of an
+/// outcome.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FitError {
+    /// What happened.
+    pub message: String,
+    /// What would fix it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub help: Option<String>,
+    /// The term or column at fault, by its label ([`Column::term`] or
+    /// [`Column::name`]), so the host can point at it in the request text.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub term: Option<String>,
+}
+
+impl FitError {
+    /// A new error.
+    pub fn new(message: impl Into<String>) -> Self {
+        FitError { message: message.into(), help: None, term: None }
+    }
+    /// Adds what would fix it.
+    pub fn help(mut self, help: impl Into<String>) -> Self {
+        self.help = Some(help.into());
+        self
+    }
+    /// Names the term or column at fault.
+    pub fn at_term(mut self, term: impl Into<String>) -> Self {
+        self.term = Some(term.into());
+        self
+    }
+}
+
+impl std::fmt::Display for FitError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
+impl std::error::Error for FitError {}
+
 /// A warning about one row of the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RowWarning {
@@ -317,5 +383,236 @@ impl FitOutcome {
             }
         }
         Ok(())
+    }
+}
+
+/// A function that a [`Formula`] may call.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Function {
+    /// Natural logarithm.
+    Log,
+    /// Common (base-10) logarithm.
+    Log10,
+    /// Exponential.
+    Exp,
+    /// Square root.
+    Sqrt,
+    /// Absolute value.
+    Abs,
+    /// Sine (radians).
+    Sin,
+    /// Cosine (radians).
+    Cos,
+    /// Tangent (radians).
+    Tan,
+    /// Arc tangent (radians).
+    Atan,
+}
+
+impl Function {
+    /// The function of a fit-language name (`log`, `sin`, …), case-insensitive.
+    pub fn from_name(name: &str) -> Option<Function> {
+        Some(match name.to_ascii_lowercase().as_str() {
+            "log" => Function::Log,
+            "log10" => Function::Log10,
+            "exp" => Function::Exp,
+            "sqrt" => Function::Sqrt,
+            "abs" => Function::Abs,
+            "sin" => Function::Sin,
+            "cos" => Function::Cos,
+            "tan" => Function::Tan,
+            "atan" => Function::Atan,
+            _ => return None,
+        })
+    }
+
+    /// Its fit-language name.
+    pub fn name(self) -> &'static str {
+        match self {
+            Function::Log => "log",
+            Function::Log10 => "log10",
+            Function::Exp => "exp",
+            Function::Sqrt => "sqrt",
+            Function::Abs => "abs",
+            Function::Sin => "sin",
+            Function::Cos => "cos",
+            Function::Tan => "tan",
+            Function::Atan => "atan",
+        }
+    }
+
+    /// The value at `x`.
+    pub fn apply(self, x: f64) -> f64 {
+        match self {
+            Function::Log => x.ln(),
+            Function::Log10 => x.log10(),
+            Function::Exp => x.exp(),
+            Function::Sqrt => x.sqrt(),
+            Function::Abs => x.abs(),
+            Function::Sin => x.sin(),
+            Function::Cos => x.cos(),
+            Function::Tan => x.tan(),
+            Function::Atan => x.atan(),
+        }
+    }
+
+    /// The derivative at `x` (standard calculus; `abs` takes the sign of `x`,
+    /// 0 at 0).
+    pub fn derivative(self, x: f64) -> f64 {
+        match self {
+            Function::Log => 1.0 / x,
+            Function::Log10 => 1.0 / (x * std::f64::consts::LN_10),
+            Function::Exp => x.exp(),
+            Function::Sqrt => 0.5 / x.sqrt(),
+            Function::Abs => {
+                if x > 0.0 {
+                    1.0
+                } else if x < 0.0 {
+                    -1.0
+                } else {
+                    0.0
+                }
+            }
+            Function::Sin => x.cos(),
+            Function::Cos => -x.sin(),
+            Function::Tan => 1.0 / (x.cos() * x.cos()),
+            Function::Atan => 1.0 / (1.0 + x * x),
+        }
+    }
+}
+
+/// A formula over the columns of a [`FitRequest`] and, for a model with
+/// parameters, the fit's parameters: plain data that travels as JSON, such
+/// as `{"mul":[{"parameter":0},{"column":1}]}`.
+///
+/// A fit uses it to say how a new row of inputs becomes its model row
+/// ([`Predictor::model_row`]: `Light^2` is `{"pow":[{"column":0},{"number":2.0}]}`)
+/// and, for a model nonlinear in its parameters, what the model is
+/// ([`PredictorForm::Model`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase", deny_unknown_fields)]
+pub enum Formula {
+    /// A number.
+    Number(f64),
+    /// The value of the request's column of this index ([`FitRequest::columns`]).
+    Column(usize),
+    /// The value of the parameter of this index.
+    Parameter(usize),
+    /// `−a`.
+    Neg(Box<Formula>),
+    /// `a + b`.
+    Add(Box<Formula>, Box<Formula>),
+    /// `a − b`.
+    Sub(Box<Formula>, Box<Formula>),
+    /// `a × b`.
+    Mul(Box<Formula>, Box<Formula>),
+    /// `a / b`.
+    Div(Box<Formula>, Box<Formula>),
+    /// `a ^ b` (real exponent).
+    Pow(Box<Formula>, Box<Formula>),
+    /// A function of one value.
+    Call(Function, Box<Formula>),
+}
+
+impl Formula {
+    /// `a op b` with boxing, for building formulas in code.
+    pub fn pow(a: Formula, b: Formula) -> Formula {
+        Formula::Pow(Box::new(a), Box::new(b))
+    }
+
+    /// The value at the given column values and parameters. A column or
+    /// parameter index out of range gives NaN.
+    pub fn eval(&self, columns: &[f64], params: &[f64]) -> f64 {
+        let e = |f: &Formula| f.eval(columns, params);
+        match self {
+            Formula::Number(x) => *x,
+            Formula::Column(j) => columns.get(*j).copied().unwrap_or(f64::NAN),
+            Formula::Parameter(k) => params.get(*k).copied().unwrap_or(f64::NAN),
+            Formula::Neg(a) => -e(a),
+            Formula::Add(a, b) => e(a) + e(b),
+            Formula::Sub(a, b) => e(a) - e(b),
+            Formula::Mul(a, b) => e(a) * e(b),
+            Formula::Div(a, b) => e(a) / e(b),
+            Formula::Pow(a, b) => pow(e(a), e(b)),
+            Formula::Call(f, a) => f.apply(e(a)),
+        }
+    }
+
+    /// The value and the gradient with respect to the parameters (one entry
+    /// per parameter, `params.len()` of them), by forward differentiation
+    /// with the usual rules of calculus (sum, product, quotient and chain
+    /// rules; `d(a^b) = b·a^(b−1)·da + a^b·ln(a)·db`, the second part only
+    /// where `b` depends on the parameters).
+    pub fn gradient(&self, columns: &[f64], params: &[f64]) -> (f64, Vec<f64>) {
+        let k = params.len();
+        let g = |f: &Formula| f.gradient(columns, params);
+        match self {
+            Formula::Number(x) => (*x, vec![0.0; k]),
+            Formula::Column(j) => (columns.get(*j).copied().unwrap_or(f64::NAN), vec![0.0; k]),
+            Formula::Parameter(i) => {
+                let mut d = vec![0.0; k];
+                if let Some(x) = d.get_mut(*i) {
+                    *x = 1.0;
+                }
+                (params.get(*i).copied().unwrap_or(f64::NAN), d)
+            }
+            Formula::Neg(a) => {
+                let (v, d) = g(a);
+                (-v, d.into_iter().map(|x| -x).collect())
+            }
+            Formula::Add(a, b) | Formula::Sub(a, b) => {
+                let s = if matches!(self, Formula::Sub(..)) { -1.0 } else { 1.0 };
+                let ((va, da), (vb, db)) = (g(a), g(b));
+                (va + s * vb, da.iter().zip(&db).map(|(x, y)| x + s * y).collect())
+            }
+            Formula::Mul(a, b) => {
+                let ((va, da), (vb, db)) = (g(a), g(b));
+                (va * vb, da.iter().zip(&db).map(|(x, y)| x * vb + va * y).collect())
+            }
+            Formula::Div(a, b) => {
+                let ((va, da), (vb, db)) = (g(a), g(b));
+                (va / vb, da.iter().zip(&db).map(|(x, y)| (x * vb - va * y) / (vb * vb)).collect())
+            }
+            Formula::Pow(a, b) => {
+                let ((va, da), (vb, db)) = (g(a), g(b));
+                let v = pow(va, vb);
+                let d = da
+                    .iter()
+                    .zip(&db)
+                    .map(|(x, y)| {
+                        let base = if *x == 0.0 { 0.0 } else { vb * pow(va, vb - 1.0) * x };
+                        let expo = if *y == 0.0 { 0.0 } else { v * va.ln() * y };
+                        base + expo
+                    })
+                    .collect();
+                (v, d)
+            }
+            Formula::Call(f, a) => {
+                let (va, da) = g(a);
+                let fd = f.derivative(va);
+                (f.apply(va), da.into_iter().map(|x| fd * x).collect())
+            }
+        }
+    }
+
+    /// Whether the formula uses any parameter.
+    pub fn has_parameters(&self) -> bool {
+        match self {
+            Formula::Number(_) | Formula::Column(_) => false,
+            Formula::Parameter(_) => true,
+            Formula::Neg(a) | Formula::Call(_, a) => a.has_parameters(),
+            Formula::Add(a, b) | Formula::Sub(a, b) | Formula::Mul(a, b) | Formula::Div(a, b) | Formula::Pow(a, b) => a.has_parameters() || b.has_parameters(),
+        }
+    }
+}
+
+/// `a^b`, with whole exponents by repeated multiplication (exact for
+/// `x^2`, and defined for a negative base).
+fn pow(a: f64, b: f64) -> f64 {
+    if b.fract() == 0.0 && b.abs() <= 64.0 {
+        a.powi(b as i32)
+    } else {
+        a.powf(b)
     }
 }

@@ -1034,6 +1034,7 @@ pub fn resolve(
         intercept,
         weights: weights.as_ref().map(|w| pick(&w.values)),
         level,
+        expression: None,
         options: options.into_iter().filter(|(k, _)| !["name", "level", "intercept", "weights", "missing", "data", "base"].contains(&k.as_str())).collect(),
     };
     let placement = Placement {

@@ -393,6 +393,7 @@ mod tests {
             intercept,
             weights,
             level: 0.95,
+            expression: None,
             options,
         }
     }

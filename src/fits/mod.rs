@@ -21,34 +21,7 @@ pub trait Fit: Send + Sync {
     fn fit(&self, request: &FitRequest) -> Result<FitOutcome, FitError>;
 }
 
-/// A fit that could not be done, in the user's terms.
-#[derive(Debug, Clone, PartialEq)]
-pub struct FitError {
-    /// What happened.
-    pub message: String,
-    /// What would fix it.
-    pub help: Option<String>,
-}
-
-impl FitError {
-    /// A new error.
-    pub fn new(message: impl Into<String>) -> Self {
-        FitError { message: message.into(), help: None }
-    }
-    /// Adds what would fix it.
-    pub fn help(mut self, help: impl Into<String>) -> Self {
-        self.help = Some(help.into());
-        self
-    }
-}
-
-impl fmt::Display for FitError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(&self.message)
-    }
-}
-
-impl std::error::Error for FitError {}
+pub use crate::protocol::FitError;
 
 /// Why a plugin could not be registered.
 #[derive(Debug, Clone, PartialEq)]

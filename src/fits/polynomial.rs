@@ -126,6 +126,7 @@ mod tests {
             intercept: true,
             weights: None,
             level: 0.95,
+            expression: None,
             options,
         }
     }
