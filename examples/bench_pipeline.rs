@@ -11,7 +11,8 @@
 //! Results and the machine they came from are in docs/benchmarks.md.
 
 use plumb::fits::Registry;
-use plumb::layout::{lay_out, RunInfo};
+use plumb::layout::lay_out;
+use plumb::report::RunInfo;
 use plumb::pipeline::evaluate_book;
 use plumb::read::read_workbook;
 use plumb::write::{write_book, WriteOptions};

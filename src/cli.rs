@@ -1,15 +1,40 @@
 //! The command line: arguments to a run configuration, printing, exit codes.
 //!
 //! Thin on purpose: it validates what the user typed, dispatches to the
-//! pipeline, prints problems and the summary, and maps the outcome to an exit
-//! status (0 all requests ok, 1 some request failed, 2 the input could not be
-//! used).
+//! pipeline, prints problems and the summary, and maps the outcome to an
+//! [`Exit`] status. It talks to `pipeline` only.
 
-use crate::fits::Registry;
-use crate::layout::Status;
 use crate::pipeline::{self, RunConfig, Summary};
 use clap::{Parser, Subcommand};
 use std::path::PathBuf;
+
+/// How a command ended, as the process's exit status.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Exit {
+    /// 0: every request fitted.
+    Ok = 0,
+    /// 1: some request failed; the output is still written.
+    SomeFailed = 1,
+    /// 2: the input could not be used; nothing was written.
+    Unusable = 2,
+}
+
+impl Exit {
+    /// `Ok` or `SomeFailed` for a summary.
+    fn of(s: &Summary) -> Exit {
+        if s.any_failed() {
+            Exit::SomeFailed
+        } else {
+            Exit::Ok
+        }
+    }
+}
+
+impl From<Exit> for std::process::ExitCode {
+    fn from(e: Exit) -> Self {
+        std::process::ExitCode::from(e as u8)
+    }
+}
 
 const EXIT_HELP: &str = "Exit status: 0 every request fitted; 1 some request failed (the output is still written, each failure shown at its cell); 2 the input could not be used (nothing written).
 
@@ -55,26 +80,16 @@ fn print_summary(s: &Summary) {
     for p in &s.problems {
         eprint!("{p}");
     }
-    for r in &s.reports {
-        let status = r.status.as_str();
-        let detail = match (&r.status, &r.outcome) {
-            (Status::Error, _) => r.messages.first().cloned().unwrap_or_default(),
-            (_, None) if r.host.is_some() => crate::layout::outcome_line(r),
-            (_, None) => r.messages.first().cloned().unwrap_or_default(),
-            (_, Some(o)) => {
-                let r2 = o.statistic("r_squared").map(|v| format!(", R² = {v:.4}")).unwrap_or_default();
-                format!("{} fit, n = {}{r2}", r.function, r.rows_used)
-            }
-        };
-        println!("{:<8} {:<14} {:<16} {}", status, r.cell.to_string(), r.name, detail);
+    for line in s.report_lines() {
+        println!("{line}");
     }
-    let failed = s.reports.iter().filter(|r| r.status == Status::Error).count();
+    let failed = s.failed();
     println!("{} request(s): {} fitted, {} failed", s.reports.len(), s.reports.len() - failed, failed);
 }
 
 /// Runs the command line; returns the exit status.
-pub fn main_with(cli: Cli) -> i32 {
-    let registry = Registry::builtin();
+pub fn main_with(cli: Cli) -> Exit {
+    let registry = pipeline::builtin_registry();
     match cli.command {
         Command::Functions => {
             for (plugin, f) in registry.functions() {
@@ -89,16 +104,16 @@ pub fn main_with(cli: Cli) -> i32 {
                 }
                 println!();
             }
-            0
+            Exit::Ok
         }
         Command::Check { input } => match pipeline::evaluate(&input, &registry) {
             Ok((_, s)) => {
                 print_summary(&s);
-                i32::from(s.any_failed())
+                Exit::of(&s)
             }
             Err(e) => {
                 eprintln!("error: {e}");
-                2
+                Exit::Unusable
             }
         },
         Command::Run { input, output } => {
@@ -106,7 +121,7 @@ pub fn main_with(cli: Cli) -> i32 {
                 Ok(t) => t,
                 Err(e) => {
                     eprintln!("error: {e}");
-                    return 2;
+                    return Exit::Unusable;
                 }
             };
             match pipeline::run(&RunConfig { input, output, created_unix }, &registry) {
@@ -115,12 +130,12 @@ pub fn main_with(cli: Cli) -> i32 {
                     if let Some(o) = &s.output {
                         println!("wrote {}", o.display());
                     }
-                    i32::from(s.any_failed())
+                    Exit::of(&s)
                 }
                 Err(e) => {
                     eprintln!("error: {e}");
                     eprintln!("nothing was written");
-                    2
+                    Exit::Unusable
                 }
             }
         }

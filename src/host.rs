@@ -20,112 +20,14 @@
 //! `(df₀ − df₁, df₁)` degrees of freedom.
 
 use crate::cells::{CellAddress, Value, Workbook};
-use crate::layout::Report;
-use crate::numeric::{f_sf, t_quantile};
+use crate::numeric::f_sf;
+use crate::predict;
 use crate::problems::{closest, Problem};
+use crate::protocol::{Predictor, RowRole};
 use crate::recipe::{NewValue, Recipe};
+use crate::report::{ComparedFit, Comparison, HostOutcome, NestedTest, Prediction, PredictionRow, Report};
 use crate::syntax::{Arg, ExprKind, Request, UnaryOp};
 use std::collections::BTreeMap;
-
-/// One point of a prediction.
-#[derive(Debug, Clone, PartialEq)]
-pub struct PredictionRow {
-    /// The input values, in the recipe's input order.
-    pub values: Vec<NewValue>,
-    /// Predicted value `xᵀb`.
-    pub predicted: f64,
-    /// Standard error of the mean at this point.
-    pub se_mean: f64,
-    /// Confidence interval of the mean.
-    pub mean_lower: f64,
-    /// Upper end.
-    pub mean_upper: f64,
-    /// Prediction interval of a new observation.
-    pub new_lower: f64,
-    /// Upper end.
-    pub new_upper: f64,
-    /// Leverage of the point, `xᵀVx / s²`.
-    pub leverage: f64,
-    /// Why the point lies outside the data, if it does.
-    pub outside: Vec<String>,
-}
-
-/// The outcome of a `#predict` request.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Prediction {
-    /// The fit's name.
-    pub fit: String,
-    /// The input names, in order.
-    pub inputs: Vec<String>,
-    /// Confidence level.
-    pub level: f64,
-    /// One row per point.
-    pub rows: Vec<PredictionRow>,
-}
-
-/// One fit in a comparison.
-#[derive(Debug, Clone, PartialEq)]
-pub struct ComparedFit {
-    /// Fit name.
-    pub name: String,
-    /// Rows used.
-    pub n: f64,
-    /// Parameters estimated.
-    pub parameters: f64,
-    /// R².
-    pub r_squared: f64,
-    /// Adjusted R².
-    pub adj_r_squared: f64,
-    /// Root mean squared error.
-    pub rmse: f64,
-    /// AIC.
-    pub aic: f64,
-    /// BIC.
-    pub bic: f64,
-    /// Estimate and standard error per term of [`Comparison::terms`].
-    pub coefficients: Vec<Option<(Option<f64>, Option<f64>)>>,
-}
-
-/// A nested-model F test.
-#[derive(Debug, Clone, PartialEq)]
-pub struct NestedTest {
-    /// The smaller fit.
-    pub smaller: String,
-    /// The larger fit, whose terms contain the smaller's.
-    pub larger: String,
-    /// F statistic.
-    pub f: f64,
-    /// Numerator degrees of freedom.
-    pub df_num: f64,
-    /// Denominator degrees of freedom.
-    pub df_den: f64,
-    /// Upper-tail p-value.
-    pub p_value: f64,
-}
-
-/// The outcome of a `#compare` request.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Comparison {
-    /// The response, as typed in the first fit.
-    pub response: String,
-    /// The fits, in the order named.
-    pub fits: Vec<ComparedFit>,
-    /// Index of the fit with the lowest AIC.
-    pub lowest_aic: usize,
-    /// Every pair of nested fits.
-    pub nested: Vec<NestedTest>,
-    /// Every term of any fit, in order of first appearance.
-    pub terms: Vec<String>,
-}
-
-/// What a host function produced.
-#[derive(Debug, Clone, PartialEq)]
-pub enum HostOutcome {
-    /// `#predict`.
-    Prediction(Prediction),
-    /// `#compare`.
-    Comparison(Comparison),
-}
 
 /// What the pipeline needs of a host function's evaluation.
 #[derive(Debug, Clone)]
@@ -199,26 +101,12 @@ fn new_value(e: &crate::syntax::Expr) -> Option<NewValue> {
     }
 }
 
-fn stat(r: &Report, key: &str) -> f64 {
-    r.outcome.as_ref().and_then(|o| o.statistic(key)).unwrap_or(f64::NAN)
-}
-
-/// Predicts a fit at model rows: `(ŷ, se_mean, leverage)` per row.
-fn predict_rows(r: &Report, xs: &[Vec<f64>]) -> Result<Vec<(f64, f64, f64)>, String> {
-    let o = r.outcome.as_ref().ok_or("the fit has no outcome")?;
-    let v = o.covariance.as_ref().ok_or_else(|| format!("the fit '{}' (#{}) carries no covariance matrix, so it cannot predict with intervals", r.name, r.function))?;
-    let b: Vec<f64> = o.coefficients.iter().map(|c| c.estimate.unwrap_or(0.0)).collect();
-    let s = stat(r, "rmse");
-    let mut out = Vec::new();
-    for x in xs {
-        if x.len() != b.len() || v.len() != b.len() {
-            return Err(format!("the model row has {} values for {} coefficients", x.len(), b.len()));
-        }
-        let yhat: f64 = x.iter().zip(&b).map(|(a, c)| a * c).sum();
-        let q: f64 = (0..x.len()).map(|i| x[i] * (0..x.len()).map(|j| v[i][j] * x[j]).sum::<f64>()).sum();
-        out.push((yhat, q.max(0.0).sqrt(), q / (s * s)));
-    }
-    Ok(out)
+/// The fit's predictor, or why it has none.
+fn predictor(r: &Report) -> Result<&Predictor, String> {
+    r.outcome
+        .as_ref()
+        .and_then(|o| o.predictor.as_ref())
+        .ok_or_else(|| format!("the fit '{}' (#{}) offers no predictions with intervals (its outcome has no predictor)", r.name, r.function))
 }
 
 /// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`.
@@ -265,9 +153,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
         ctx.err(fit_span, format!("the fit '{}' names a column by a range or uses a term a new value cannot be given for, so it cannot predict", fit.name))
             .help("name the fit's columns by their headers to predict from it")
     })?;
-    if fit.outcome.as_ref().is_none_or(|o| o.covariance.is_none()) {
-        return Err(ctx.err(fit_span, format!("the fit '{}' (#{}) carries no covariance matrix, so it cannot predict with intervals", fit.name, fit.function)));
-    }
+    let pr = predictor(fit).map_err(|e| ctx.err(fit_span, e))?;
     // The points.
     let mut points: Vec<(Vec<NewValue>, String)> = Vec::new();
     match (rows_arg, given.is_empty()) {
@@ -361,27 +247,19 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
         }
     }
     let level = level_arg.unwrap_or(fit.level);
-    let df = stat(fit, "df_resid");
-    let s = stat(fit, "rmse");
-    let t = -t_quantile(0.5 * (1.0 - level), df);
-    let max_lev = fit.outcome.as_ref().and_then(|o| o.rows.iter().find(|c| c.key == "leverage")).map(|c| c.values.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max));
-    let mut xs = Vec::new();
-    for (vals, label) in &points {
-        let x = recipe.row(vals).map_err(|e| {
-            let at = if label.is_empty() { String::new() } else { format!(" ({label})") };
-            ctx.whole(format!("{e}{at}"))
-        })?;
-        xs.push(x);
-    }
-    let pred = predict_rows(fit, &xs).map_err(|e| ctx.whole(e))?;
+    let o = fit.outcome.as_ref().ok_or_else(|| ctx.whole("the fit has no outcome"))?;
+    let b: Vec<f64> = o.coefficients.iter().map(|c| c.estimate.unwrap_or(0.0)).collect();
+    let max_lev = o.row_column(&RowRole::Leverage).map(|c| c.values.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max));
     let mut rows = Vec::new();
     let mut warnings = Vec::new();
-    for ((vals, label), (yhat, se, lev)) in points.iter().zip(pred) {
-        let se_new = (s * s + se * se).sqrt();
+    for (vals, label) in &points {
+        let at = if label.is_empty() { String::new() } else { format!(" ({label})") };
+        let columns = recipe.columns_at(vals).map_err(|e| ctx.whole(format!("{e}{at}")))?;
+        let pt = predict::at(pr, &b, &columns, level).map_err(|e| ctx.whole(format!("{e}{at}")))?;
         let mut outside = recipe.outside(vals);
         if let Some(m) = max_lev {
-            if lev > m * (1.0 + 1e-9) {
-                outside.push(format!("its leverage {lev:.4} exceeds the largest in the data ({m:.4})"));
+            if pt.leverage > m * (1.0 + 1e-9) {
+                outside.push(format!("its leverage {:.4} exceeds the largest in the data ({m:.4})", pt.leverage));
             }
         }
         if !outside.is_empty() {
@@ -390,13 +268,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
         }
         rows.push(PredictionRow {
             values: vals.clone(),
-            predicted: yhat,
-            se_mean: se,
-            mean_lower: yhat - t * se,
-            mean_upper: yhat + t * se,
-            new_lower: yhat - t * se_new,
-            new_upper: yhat + t * se_new,
-            leverage: lev,
+            at: pt,
             outside,
         });
     }
@@ -461,15 +333,17 @@ pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[&Report
         .map(|f| {
             let o = f.outcome.as_ref();
             let coefs = o.map(|o| o.coefficients.clone()).unwrap_or_default();
+            let lik = o.and_then(|o| o.likelihood);
+            let ls = o.and_then(|o| o.least_squares);
             ComparedFit {
                 name: f.name.clone(),
-                n: stat(f, "n"),
-                parameters: stat(f, "parameters"),
-                r_squared: stat(f, "r_squared"),
-                adj_r_squared: stat(f, "adj_r_squared"),
-                rmse: stat(f, "rmse"),
-                aic: stat(f, "aic"),
-                bic: stat(f, "bic"),
+                n: f.rows_used as f64,
+                parameters: lik.map_or(f64::NAN, |l| l.parameters),
+                r_squared: ls.map_or(f64::NAN, |l| l.r_squared),
+                adj_r_squared: ls.map_or(f64::NAN, |l| l.adj_r_squared),
+                rmse: o.and_then(|o| o.predictor.as_ref()).and_then(|p| p.residual_sd).unwrap_or(f64::NAN),
+                aic: lik.map_or(f64::NAN, |l| l.aic()),
+                bic: lik.map_or(f64::NAN, |l| l.bic()),
                 coefficients: terms.iter().map(|t| coefs.iter().find(|c| &c.term == t).map(|c| (c.estimate, c.std_error))).collect(),
             }
         })
@@ -483,7 +357,9 @@ pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[&Report
             if std::ptr::eq(*a, *b) || ta.len() >= tb.len() || !ta.iter().all(|t| tb.contains(t)) {
                 continue;
             }
-            let (sse0, df0, sse1, df1) = (stat(a, "ss_resid"), stat(a, "df_resid"), stat(b, "ss_resid"), stat(b, "df_resid"));
+            // Nested F tests need the sums of squares of least squares.
+            let (Some(la), Some(lb)) = (a.outcome.as_ref().and_then(|o| o.least_squares), b.outcome.as_ref().and_then(|o| o.least_squares)) else { continue };
+            let (sse0, df0, sse1, df1) = (la.ss_resid, la.df_resid, lb.ss_resid, lb.df_resid);
             let dn = df0 - df1;
             if dn <= 0.0 || df1 <= 0.0 {
                 continue;

@@ -2,7 +2,7 @@
 
 use clap::Parser;
 
-fn main() {
+fn main() -> std::process::ExitCode {
     let cli = plumb::cli::Cli::parse();
-    std::process::exit(plumb::cli::main_with(cli));
+    plumb::cli::main_with(cli).into()
 }

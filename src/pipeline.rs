@@ -7,7 +7,8 @@
 
 use crate::cells::{CellAddress, Workbook};
 use crate::fits::Registry;
-use crate::layout::{self, Report, RowsPlace, RunInfo, Status};
+use crate::layout;
+use crate::report::{Report, RowsPlace, RunInfo, Status};
 use crate::problems::{closest, Problem};
 use crate::read::{self, ReadError};
 use crate::resolve::{self, FoundRequest};
@@ -84,6 +85,36 @@ impl Summary {
     pub fn any_failed(&self) -> bool {
         self.reports.iter().any(|r| r.status == Status::Error)
     }
+
+    /// How many requests failed.
+    pub fn failed(&self) -> usize {
+        self.reports.iter().filter(|r| r.status == Status::Error).count()
+    }
+
+    /// One line per request for the terminal: status, cell, name, and the
+    /// error, the host function's outcome or the fit's size and R².
+    pub fn report_lines(&self) -> Vec<String> {
+        self.reports
+            .iter()
+            .map(|r| {
+                let detail = match (&r.status, &r.outcome) {
+                    (Status::Error, _) => r.messages.first().cloned().unwrap_or_default(),
+                    (_, None) if r.host.is_some() => layout::outcome_line(r),
+                    (_, None) => r.messages.first().cloned().unwrap_or_default(),
+                    (_, Some(o)) => {
+                        let r2 = o.least_squares.map(|l| format!(", R² = {:.4}", l.r_squared)).unwrap_or_default();
+                        format!("{} fit, n = {}{r2}", r.function, r.rows_used)
+                    }
+                };
+                format!("{:<8} {:<14} {:<16} {}", r.status.as_str(), r.cell.to_string(), r.name, detail)
+            })
+            .collect()
+    }
+}
+
+/// The registry of every built-in fit and host function.
+pub fn builtin_registry() -> Registry {
+    Registry::builtin()
 }
 
 /// `NAME.fitted.xlsx` beside the input.
@@ -278,11 +309,21 @@ fn evaluate_one(
     report.level = resolved.request.level;
     report.rows_used = resolved.request.rows();
     report.rows_left_out = resolved.left_out.total();
-    let mut outcome = match fit.fit(&resolved.request) {
-        Ok(o) => o,
-        Err(e) => {
+    // A fit that panics has a bug; it costs only its own request. (The
+    // panic hook still prints the panic, for the bug report.)
+    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| fit.fit(&resolved.request)));
+    let mut outcome = match result {
+        Ok(Ok(o)) => o,
+        Ok(Err(e)) => {
             let mut p = Problem::error(e.message.clone()).at(f.cell.clone());
             p.help = e.help.clone();
+            return fail(report, p);
+        }
+        Err(payload) => {
+            let why = payload.downcast_ref::<&str>().map(|s| s.to_string()).or_else(|| payload.downcast_ref::<String>().cloned()).unwrap_or_default();
+            let p = Problem::error(format!("the fit #{fname} stopped with an internal error ({why}); this is a bug in the fit, not in your data"))
+                .at(f.cell.clone())
+                .help("please report it with the workbook; the other requests are not affected");
             return fail(report, p);
         }
     };
@@ -398,6 +439,40 @@ mod tests {
         assert_eq!(iso_time(0), "1970-01-01 00:00:00");
         assert_eq!(iso_time(1_000_000_000), "2001-09-09 01:46:40");
         assert_eq!(iso_time(951_782_400), "2000-02-29 00:00:00");
+    }
+
+    /// A fit with the linear family's spec that panics.
+    struct Boom(crate::protocol::FunctionSpec);
+    impl crate::fits::Fit for Boom {
+        fn spec(&self) -> &crate::protocol::FunctionSpec {
+            &self.0
+        }
+        fn fit(&self, _: &crate::protocol::FitRequest) -> Result<crate::protocol::FitOutcome, crate::fits::FitError> {
+            panic!("index out of bounds in a test fit")
+        }
+    }
+
+    #[test]
+    fn a_panicking_fit_costs_only_its_request() {
+        use crate::cells::Grid;
+        use crate::fits::Fit;
+        let mut registry = Registry::builtin();
+        let mut spec = crate::fits::linear::Linear::new().spec().clone();
+        spec.name = "boom".into();
+        registry.register("test", crate::protocol::PROTOCOL_VERSION, Box::new(Boom(spec))).expect("registers");
+        let mut g = Grid::new("Data");
+        g.set_text(0, 0, "x");
+        g.set_text(0, 1, "y");
+        for i in 1..=6u32 {
+            g.set_number(i, 0, f64::from(i));
+            g.set_number(i, 1, f64::from(i * i));
+        }
+        g.set_text(1, 3, "#boom(y, x)");
+        g.set_text(2, 3, "#linear(y, x)");
+        let s = evaluate_book(&Workbook { sheets: vec![g] }, "t.xlsx", &registry);
+        assert_eq!(s.reports[0].status, Status::Error);
+        assert!(s.reports[0].messages[0].contains("internal error (index out of bounds in a test fit)"), "{:?}", s.reports[0].messages);
+        assert_ne!(s.reports[1].status, Status::Error);
     }
 
     #[test]

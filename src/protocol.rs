@@ -13,8 +13,53 @@ use std::collections::BTreeMap;
 /// The protocol version this host speaks.
 pub const PROTOCOL_VERSION: u32 = 1;
 
+/// One message between the host and a plugin: what travels, one JSON
+/// object per line, over an external plugin's standard input and output.
+///
+/// The host opens with [`Message::Hello`]; the plugin answers
+/// [`Message::Manifest`]. Then for each request the host sends
+/// [`Message::Fit`] with an id of its choosing, and the plugin answers with
+/// [`Message::Outcome`] or [`Message::Error`] carrying the same id.
+/// Example: `{"type":"hello","protocol":1}`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "type", rename_all = "snake_case", deny_unknown_fields)]
+pub enum Message {
+    /// Host to plugin: the host's protocol version; asks for the manifest.
+    Hello {
+        /// The protocol version the host speaks.
+        protocol: u32,
+    },
+    /// Plugin to host: what the plugin serves.
+    Manifest {
+        /// The manifest.
+        manifest: Manifest,
+    },
+    /// Host to plugin: fit one request.
+    Fit {
+        /// The call's id, repeated in the reply.
+        id: u64,
+        /// The request.
+        request: FitRequest,
+    },
+    /// Plugin to host: the outcome of the call `id`.
+    Outcome {
+        /// The call's id.
+        id: u64,
+        /// The outcome.
+        outcome: FitOutcome,
+    },
+    /// Plugin to host: the call `id` could not be done.
+    Error {
+        /// The call's id.
+        id: u64,
+        /// Why, in the user's terms.
+        error: FitError,
+    },
+}
+
 /// What a plugin provides.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Manifest {
     /// Protocol version the plugin speaks.
     pub protocol: u32,
@@ -28,6 +73,7 @@ pub struct Manifest {
 
 /// One function of the fit language.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct FunctionSpec {
     /// Name, lowercase (`linear`).
     pub name: String,
@@ -66,6 +112,7 @@ impl FunctionSpec {
 
 /// A parameter or option of a function.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct ParamSpec {
     /// Name.
     pub name: String,
@@ -123,6 +170,7 @@ pub enum OptionValue {
 
 /// One column of numbers sent to a plugin.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Column {
     /// Label used in the output (`Light`, `Light^2`, `Bay=North`).
     pub name: String,
@@ -142,6 +190,7 @@ pub struct Column {
 
 /// "Power `exponent` of the base column `base`" (see [`Column::power`]).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct PowerOf {
     /// The base column's label as typed (`Light`).
     pub base: String,
@@ -153,6 +202,7 @@ pub struct PowerOf {
 
 /// A fully resolved request: numbers only, never cell addresses.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct FitRequest {
     /// Protocol version.
     pub protocol: u32,
@@ -205,6 +255,7 @@ impl FitRequest {
 
 /// One estimated coefficient.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Coefficient {
     /// Term label (`(intercept)`, `Light`, `Bay=North`).
     pub term: String,
@@ -230,49 +281,265 @@ pub struct Coefficient {
     pub standardized: Option<f64>,
 }
 
+/// How a statistic's value is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum NumberFormat {
+    /// A figure shown to six significant digits (the cell keeps every digit).
+    #[default]
+    Decimal,
+    /// A whole number: a count, degrees of freedom.
+    Integer,
+    /// A p-value: four decimals, or scientific below 0.0001.
+    PValue,
+}
+
 /// A named statistic of a fit.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Statistic {
     /// Stable key for programs (`r_squared`).
     pub key: String,
     /// Label for readers (`R²`).
     pub label: String,
-    /// Which block of the Diagnostics sheet it belongs to.
+    /// The heading of the Diagnostics block it belongs to; consecutive
+    /// statistics with one heading form one block.
     pub group: String,
-    /// The value.
+    /// How the value is shown (default: [`NumberFormat::Decimal`]).
+    #[serde(default)]
+    pub format: NumberFormat,
+    /// The value; NaN (sent as `null`) when undefined.
+    #[serde(with = "nan_as_null")]
     pub value: f64,
+}
+
+impl Statistic {
+    /// A statistic shown as a decimal figure.
+    pub fn new(key: &str, label: &str, group: &str, value: f64) -> Self {
+        Statistic { key: key.into(), label: label.into(), group: group.into(), format: NumberFormat::Decimal, value }
+    }
+    /// The same with another number format.
+    pub fn format(mut self, format: NumberFormat) -> Self {
+        self.format = format;
+        self
+    }
+}
+
+/// What a per-row column means. The host relies on these roles, never on a
+/// column's label: [`RowRole::Fitted`] and [`RowRole::Residual`] draw the
+/// charts, [`RowRole::StandardizedResidual`] the normal quantile plot, and
+/// [`RowRole::Leverage`] tells `#predict` which new points lie outside the
+/// data.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RowRole {
+    /// The fitted value (on the response's scale).
+    Fitted,
+    /// Observed minus fitted.
+    Residual,
+    /// The residual over its own standard error (internally studentized).
+    StandardizedResidual,
+    /// The residual over the spread of the other rows (externally studentized).
+    StudentizedResidual,
+    /// The diagonal of the hat matrix.
+    Leverage,
+    /// Cook's distance.
+    CooksDistance,
+    /// DFFITS.
+    Dffits,
+    /// The weight the fit gave the row (robust fits).
+    Weight,
+    /// The fitted probability of the event (yes/no outcomes).
+    Probability,
+    /// Anything else, with a stable key of the fit's choosing.
+    Other(String),
+}
+
+impl RowRole {
+    /// The usual header of such a column.
+    pub fn label(&self) -> &str {
+        match self {
+            RowRole::Fitted => "Fitted",
+            RowRole::Residual => "Residual",
+            RowRole::StandardizedResidual => "Standardized residual",
+            RowRole::StudentizedResidual => "Studentized residual",
+            RowRole::Leverage => "Leverage",
+            RowRole::CooksDistance => "Cook's distance",
+            RowRole::Dffits => "DFFITS",
+            RowRole::Weight => "Weight",
+            RowRole::Probability => "Probability",
+            RowRole::Other(k) => k,
+        }
+    }
 }
 
 /// A per-row result column (fitted values, residuals, …).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct RowColumn {
-    /// Stable key (`fitted`).
-    pub key: String,
+    /// What the column means.
+    pub role: RowRole,
     /// Header for readers (`Fitted`).
     pub label: String,
-    /// One value per row sent, `NaN` where undefined.
+    /// One value per row sent, NaN (sent as `null`) where undefined.
+    #[serde(with = "nan_as_null_vec")]
     pub values: Vec<f64>,
 }
 
+impl RowColumn {
+    /// A column with its role's usual label.
+    pub fn new(role: RowRole, values: Vec<f64>) -> Self {
+        RowColumn { label: role.label().to_string(), role, values }
+    }
+}
+
+/// How a fit's linear predictor becomes the response's scale.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Link {
+    /// The predictor is the response (least squares).
+    #[default]
+    Identity,
+    /// The predictor is the log-odds: the response is the probability
+    /// `1 / (1 + e^(−η))`.
+    Logit,
+    /// The predictor is the logarithm of the response: the response is `e^η`.
+    Log,
+}
+
+impl Link {
+    /// The response at predictor value `eta`.
+    pub fn inverse(self, eta: f64) -> f64 {
+        match self {
+            Link::Identity => eta,
+            Link::Logit => 1.0 / (1.0 + (-eta).exp()),
+            Link::Log => eta.exp(),
+        }
+    }
+}
+
+/// What the predictor is made of.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case", deny_unknown_fields)]
+pub enum PredictorForm {
+    /// Linear in the coefficients: `η = Σₖ bₖ·rowₖ`, with one formula per
+    /// coefficient (in coefficient order) over the request's columns. For
+    /// `#linear(Yield, Light + CO2)` the row is `[1, column 0, column 1]`;
+    /// a fit that forms powers itself says so: `[1, column 0, column 0 ^ 2]`.
+    /// Example JSON: `{"linear":{"model_row":[{"number":1.0},{"column":0}]}}`.
+    Linear {
+        /// One formula per coefficient.
+        model_row: Vec<Formula>,
+    },
+    /// Nonlinear in the coefficients: `η = f(columns; b)`, the formula's
+    /// [`Formula::Parameter`]`(k)` standing for coefficient `k`. The host
+    /// differentiates it for the delta method: `se = √(gᵀVg)` with `g` the
+    /// gradient in the coefficients.
+    /// Example JSON: `{"model":{"formula":{"mul":[{"parameter":0},{"call":["exp",{"column":0}]}]}}}`.
+    Model {
+        /// The model.
+        formula: Formula,
+    },
+}
+
+/// What a fit offers for predictions at new points (`#predict`, the
+/// prediction calculator, Wald intervals): the model's form, the
+/// covariance of its coefficients, the link, and the residual spread for
+/// intervals of a new observation.
+///
+/// Example (a straight line `Yield = b₀ + b₁·Light` with 10 residual
+/// degrees of freedom), as JSON:
+/// `{"form":{"linear":{"model_row":[{"number":1.0},{"column":0}]}},
+///   "covariance":[[0.5,-0.03],[-0.03,0.002]],"link":"identity",
+///   "residual_sd":1.2,"df":10.0}`
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Predictor {
+    /// How a new row of the request's columns becomes the predictor.
+    pub form: PredictorForm,
+    /// The covariance of the coefficients, one row per coefficient in
+    /// coefficient order; rows and columns of a coefficient without an
+    /// estimate are zero.
+    pub covariance: Vec<Vec<f64>>,
+    /// How the predictor becomes the response.
+    #[serde(default)]
+    pub link: Link,
+    /// The residual standard deviation, for the interval of a new
+    /// observation (identity link only); absent when the fit has no such
+    /// interval.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub residual_sd: Option<f64>,
+    /// Degrees of freedom of Student's t for the intervals; absent for
+    /// normal (z) intervals.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub df: Option<f64>,
+}
+
+/// A fit's log-likelihood, for AIC, BIC and likelihood-ratio tests:
+/// `AIC = 2k − 2ℓ`, `BIC = k·ln(n) − 2ℓ` (Akaike 1974; Schwarz 1978), with
+/// `k` = [`Likelihood::parameters`] and `n` = [`Likelihood::observations`].
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Likelihood {
+    /// The maximised log-likelihood `ℓ`.
+    pub log_likelihood: f64,
+    /// The parameters counted in AIC and BIC.
+    pub parameters: f64,
+    /// The observations counted in BIC.
+    pub observations: f64,
+}
+
+impl Likelihood {
+    /// `2k − 2ℓ`.
+    pub fn aic(&self) -> f64 {
+        2.0 * self.parameters - 2.0 * self.log_likelihood
+    }
+    /// `k·ln(n) − 2ℓ`.
+    pub fn bic(&self) -> f64 {
+        self.parameters * self.observations.ln() - 2.0 * self.log_likelihood
+    }
+}
+
+/// The sums of squares of a least-squares fit, for nested F tests and for
+/// comparing fits.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LeastSquares {
+    /// Residual sum of squares (weighted, for a weighted fit).
+    pub ss_resid: f64,
+    /// Residual degrees of freedom.
+    pub df_resid: f64,
+    /// R² (uncentred without an intercept).
+    pub r_squared: f64,
+    /// Adjusted R².
+    pub adj_r_squared: f64,
+}
+
 /// What a fit returns.
+///
+/// Besides its tables, a fit declares what it can do by filling the
+/// optional capabilities: [`FitOutcome::predictor`] (predictions with
+/// intervals, the calculator), [`FitOutcome::likelihood`] (AIC, BIC,
+/// likelihood-ratio tests in `#compare`), [`FitOutcome::least_squares`]
+/// (nested F tests, R² in `#compare`). Nothing downstream looks at the
+/// function's name.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct FitOutcome {
     /// The coefficients, intercept first when there is one.
     pub coefficients: Vec<Coefficient>,
     /// Named statistics in display order.
+    #[serde(default)]
     pub statistics: Vec<Statistic>,
     /// Per-row columns.
+    #[serde(default)]
     pub rows: Vec<RowColumn>,
     /// Plain-language warnings about this fit.
+    #[serde(default)]
     pub warnings: Vec<String>,
     /// Which R² the fit reports and similar remarks.
+    #[serde(default)]
     pub notes: Vec<String>,
-    /// The covariance matrix of the estimates, one row per coefficient in
-    /// coefficient order (rows and columns of a coefficient without an
-    /// estimate are zero), when the fit has one: what predictions with
-    /// intervals need, with the `rmse` and `df_resid` statistics.
-    #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub covariance: Option<Vec<Vec<f64>>>,
     /// Which standard errors the coefficient table uses (`classic`, `HC3`,
     /// …), shown beside every coefficient; `None` when the fit does not say.
     #[serde(default)]
@@ -287,6 +554,15 @@ pub struct FitOutcome {
     /// place ("row 57 of Weekly") and adds the result to the warnings.
     #[serde(default)]
     pub row_warnings: Vec<RowWarning>,
+    /// Predictions at new points, when the fit offers them.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub predictor: Option<Predictor>,
+    /// The log-likelihood, when the fit has one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub likelihood: Option<Likelihood>,
+    /// The sums of squares, for a least-squares fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub least_squares: Option<LeastSquares>,
 }
 
 /// A fit that could not be done, in the user's terms: what an `Err` of a
@@ -333,6 +609,7 @@ impl std::error::Error for FitError {}
 
 /// A warning about one row of the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct RowWarning {
     /// The row's index among the rows sent (zero-based).
     pub row: usize,
@@ -346,19 +623,55 @@ impl FitOutcome {
         self.statistics.iter().find(|s| s.key == key).map(|s| s.value)
     }
 
-    /// Checks the outcome's shape against the request: one value per row in
-    /// every row column, finite statistics or NaN, estimates finite. Returns a
-    /// message naming the first fault.
+    /// The per-row column of a role.
+    pub fn row_column(&self, role: &RowRole) -> Option<&RowColumn> {
+        self.rows.iter().find(|c| &c.role == role)
+    }
+
+    /// Checks everything an outcome promises against its request: at least
+    /// one coefficient; estimates, standard errors, statistics and interval
+    /// ends finite or absent (a statistic may be NaN: undefined); one value
+    /// per row in every row column, finite or NaN; rows named by index
+    /// among the rows sent; the covariance `p × p` and finite; a model row
+    /// of one formula per coefficient naming only columns sent; a model
+    /// formula naming only columns sent and coefficients there are; finite
+    /// capability figures. Returns a message naming the first fault.
     pub fn check_shape(&self, request: &FitRequest) -> Result<(), String> {
         let n = request.rows();
+        let p = self.coefficients.len();
+        if p == 0 {
+            return Err("the outcome has no coefficients".into());
+        }
+        for c in &self.coefficients {
+            let fields = [("estimate", c.estimate), ("standard error", c.std_error), ("statistic", c.statistic), ("p-value", c.p_value), ("lower end", c.lower), ("upper end", c.upper), ("VIF", c.vif), ("standardized coefficient", c.standardized)];
+            for (what, v) in fields {
+                if v.is_some_and(|x| !x.is_finite()) {
+                    return Err(format!("the coefficient '{}' has a {what} that is not a finite number", c.term));
+                }
+            }
+            if c.p_value.is_some_and(|x| !(0.0..=1.0).contains(&x)) {
+                return Err(format!("the coefficient '{}' has a p-value outside 0 to 1", c.term));
+            }
+        }
+        for s in &self.statistics {
+            if s.value.is_infinite() {
+                return Err(format!("the statistic '{}' is infinite", s.key));
+            }
+        }
         for c in &self.rows {
             if c.values.len() != n {
                 return Err(format!("the column '{}' has {} values for {} rows", c.label, c.values.len(), n));
+            }
+            if c.values.iter().any(|v| v.is_infinite()) {
+                return Err(format!("the column '{}' has an infinite value", c.label));
             }
         }
         for (key, &row) in &self.statistic_rows {
             if row >= n {
                 return Err(format!("the statistic '{key}' names row {row} of {n}"));
+            }
+            if !self.statistics.iter().any(|s| &s.key == key) {
+                return Err(format!("a row is given for the statistic '{key}', which the outcome does not have"));
             }
         }
         for w in &self.row_warnings {
@@ -366,23 +679,73 @@ impl FitOutcome {
                 return Err(format!("a warning names row {} of {}", w.row, n));
             }
         }
-        if let Some(v) = &self.covariance {
-            let p = self.coefficients.len();
+        if let Some(pr) = &self.predictor {
+            let v = &pr.covariance;
             if v.len() != p || v.iter().any(|r| r.len() != p) {
                 return Err(format!("the covariance matrix is not {p} × {p} (one row and column per coefficient)"));
             }
             if v.iter().flatten().any(|x| !x.is_finite()) {
                 return Err("the covariance matrix has a value that is not a finite number".into());
             }
-        }
-        for c in &self.coefficients {
-            for v in [c.estimate, c.std_error, c.lower, c.upper].into_iter().flatten() {
-                if v.is_infinite() {
-                    return Err(format!("the coefficient '{}' has an infinite value", c.term));
+            let k = request.columns.len();
+            match &pr.form {
+                PredictorForm::Linear { model_row } => {
+                    if model_row.len() != p {
+                        return Err(format!("the model row has {} formulas for {p} coefficients", model_row.len()));
+                    }
+                    if let Some(f) = model_row.iter().find(|f| f.has_parameters() || f.max_column().is_some_and(|j| j >= k)) {
+                        return Err(format!("a model row formula names a parameter or a column beyond the {k} sent: {f:?}"));
+                    }
+                }
+                PredictorForm::Model { formula } => {
+                    if formula.max_column().is_some_and(|j| j >= k) || formula.max_parameter().is_some_and(|j| j >= p) {
+                        return Err(format!("the model formula names a column beyond the {k} sent or a coefficient beyond the {p} there are"));
+                    }
+                }
+            }
+            for (what, x) in [("residual standard deviation", pr.residual_sd), ("degrees of freedom", pr.df)] {
+                if x.is_some_and(|x| !x.is_finite() || x <= 0.0) {
+                    return Err(format!("the predictor's {what} is not a positive finite number"));
                 }
             }
         }
+        if let Some(l) = &self.likelihood {
+            if !l.log_likelihood.is_finite() || !l.parameters.is_finite() || !(l.observations > 0.0) {
+                return Err("the log-likelihood, its parameter count or its observation count is not a finite number".into());
+            }
+        }
+        if let Some(l) = &self.least_squares {
+            if !l.ss_resid.is_finite() || l.ss_resid < 0.0 || !l.df_resid.is_finite() {
+                return Err("the residual sum of squares or its degrees of freedom are not finite".into());
+            }
+        }
         Ok(())
+    }
+}
+
+/// NaN as JSON `null` and back (JSON has no NaN).
+mod nan_as_null {
+    use serde::{Deserialize, Deserializer, Serializer};
+    pub fn serialize<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
+        if x.is_finite() {
+            s.serialize_f64(*x)
+        } else {
+            s.serialize_none()
+        }
+    }
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+        Ok(Option::<f64>::deserialize(d)?.unwrap_or(f64::NAN))
+    }
+}
+
+/// A list of numbers with NaN as JSON `null`.
+mod nan_as_null_vec {
+    use serde::{Deserialize, Deserializer, Serializer};
+    pub fn serialize<S: Serializer>(v: &[f64], s: S) -> Result<S::Ok, S::Error> {
+        s.collect_seq(v.iter().map(|x| x.is_finite().then_some(*x)))
+    }
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Vec<f64>, D::Error> {
+        Ok(Vec::<Option<f64>>::deserialize(d)?.into_iter().map(|x| x.unwrap_or(f64::NAN)).collect())
     }
 }
 
@@ -596,6 +959,24 @@ impl Formula {
         }
     }
 
+    /// The largest column index used, if any.
+    pub fn max_column(&self) -> Option<usize> {
+        self.fold_index(&|f| if let Formula::Column(j) = f { Some(*j) } else { None })
+    }
+
+    /// The largest parameter index used, if any.
+    pub fn max_parameter(&self) -> Option<usize> {
+        self.fold_index(&|f| if let Formula::Parameter(j) = f { Some(*j) } else { None })
+    }
+
+    fn fold_index(&self, leaf: &dyn Fn(&Formula) -> Option<usize>) -> Option<usize> {
+        match self {
+            Formula::Number(_) | Formula::Column(_) | Formula::Parameter(_) => leaf(self),
+            Formula::Neg(a) | Formula::Call(_, a) => a.fold_index(leaf),
+            Formula::Add(a, b) | Formula::Sub(a, b) | Formula::Mul(a, b) | Formula::Div(a, b) | Formula::Pow(a, b) => a.fold_index(leaf).max(b.fold_index(leaf)),
+        }
+    }
+
     /// Whether the formula uses any parameter.
     pub fn has_parameters(&self) -> bool {
         match self {
@@ -614,5 +995,158 @@ fn pow(a: f64, b: f64) -> f64 {
         a.powi(b as i32)
     } else {
         a.powf(b)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn col(name: &str, values: &[f64]) -> Column {
+        Column { name: name.into(), term: name.into(), values: values.to_vec(), power: None }
+    }
+
+    fn request() -> FitRequest {
+        let mut options = BTreeMap::new();
+        let mut start = BTreeMap::new();
+        start.insert("a".to_string(), OptionValue::Number(40.0));
+        options.insert("start".to_string(), OptionValue::Group(start));
+        FitRequest {
+            protocol: PROTOCOL_VERSION,
+            function: "linear".into(),
+            response: col("Yield", &[1.0, 2.0, 4.0]),
+            columns: vec![col("Light", &[1.0, 2.0, 3.0])],
+            intercept: true,
+            weights: None,
+            level: 0.95,
+            expression: None,
+            options,
+        }
+    }
+
+    /// A well-formed outcome for [`request`] (invented figures: only its
+    /// shape is checked).
+    fn outcome() -> FitOutcome {
+        let c = |term: &str, e: f64| Coefficient { term: term.into(), estimate: Some(e), std_error: Some(0.5), statistic: Some(e / 0.5), p_value: Some(0.2), lower: Some(e - 1.0), upper: Some(e + 1.0), vif: None, standardized: None };
+        FitOutcome {
+            coefficients: vec![c("(intercept)", -1.0), c("Light", 1.5)],
+            statistics: vec![Statistic::new("n", "Rows used", "Fit", 3.0).format(NumberFormat::Integer), Statistic::new("r2", "R²", "Fit", f64::NAN)],
+            rows: vec![RowColumn::new(RowRole::Fitted, vec![0.5, 2.0, 3.5])],
+            statistic_rows: [("n".to_string(), 2usize)].into_iter().collect(),
+            predictor: Some(Predictor {
+                form: PredictorForm::Linear { model_row: vec![Formula::Number(1.0), Formula::Column(0)] },
+                covariance: vec![vec![0.25, 0.0], vec![0.0, 0.25]],
+                link: Link::Identity,
+                residual_sd: Some(0.7),
+                df: Some(1.0),
+            }),
+            likelihood: Some(Likelihood { log_likelihood: -2.0, parameters: 2.0, observations: 3.0 }),
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn messages_have_a_fixed_json_form() {
+        // Snapshots of the wire format: a change here is a protocol change.
+        let hello = serde_json::to_string(&Message::Hello { protocol: 1 }).unwrap();
+        assert_eq!(hello, r#"{"type":"hello","protocol":1}"#);
+        let err = Message::Error { id: 7, error: FitError::new("too few rows").help("add rows").at_term("Light") };
+        assert_eq!(serde_json::to_string(&err).unwrap(), r#"{"type":"error","id":7,"error":{"message":"too few rows","help":"add rows","term":"Light"}}"#);
+        let fit = serde_json::to_string(&Message::Fit { id: 1, request: request() }).unwrap();
+        assert_eq!(
+            fit,
+            r#"{"type":"fit","id":1,"request":{"protocol":1,"function":"linear","response":{"name":"Yield","term":"Yield","values":[1.0,2.0,4.0]},"columns":[{"name":"Light","term":"Light","values":[1.0,2.0,3.0]}],"intercept":true,"weights":null,"level":0.95,"options":{"start":{"group":{"a":{"number":40.0}}}}}}"#
+        );
+        let out = serde_json::to_string(&Message::Outcome { id: 1, outcome: outcome() }).unwrap();
+        assert!(out.contains(r#""rows":[{"role":"fitted","label":"Fitted","values":[0.5,2.0,3.5]}]"#), "{out}");
+        assert!(out.contains(r#"{"key":"r2","label":"R²","group":"Fit","format":"decimal","value":null}"#), "{out}");
+        assert!(out.contains(r#""predictor":{"form":{"linear":{"model_row":[{"number":1.0},{"column":0}]}},"covariance":[[0.25,0.0],[0.0,0.25]],"link":"identity","residual_sd":0.7,"df":1.0}"#), "{out}");
+        // And back, NaN included.
+        let back: Message = serde_json::from_str(&out).unwrap();
+        let Message::Outcome { outcome: o, .. } = back else { panic!("an outcome") };
+        assert!(o.statistics[1].value.is_nan());
+        assert_eq!(o.predictor, outcome().predictor);
+    }
+
+    #[test]
+    fn unknown_fields_are_refused() {
+        let bad = r#"{"type":"hello","protocol":1,"colour":"red"}"#;
+        assert!(serde_json::from_str::<Message>(bad).is_err());
+        let bad = r#"{"message":"x","hint":"y"}"#;
+        assert!(serde_json::from_str::<FitError>(bad).is_err());
+        let bad = r#"{"role":"fitted","label":"F","values":[1.0],"extra":1}"#;
+        assert!(serde_json::from_str::<RowColumn>(bad).is_err());
+        // An outcome with only its coefficients reads (everything else has a default).
+        let ok = r#"{"coefficients":[{"term":"b","estimate":1.0,"std_error":null,"statistic":null,"p_value":null,"lower":null,"upper":null}]}"#;
+        assert!(serde_json::from_str::<FitOutcome>(ok).is_ok());
+    }
+
+    #[test]
+    fn a_sound_outcome_passes_its_checks() {
+        assert_eq!(outcome().check_shape(&request()), Ok(()));
+    }
+
+    #[test]
+    fn check_shape_refuses_each_fault_it_promises_to_find() {
+        let req = request();
+        let cases: Vec<(&str, Box<dyn Fn(&mut FitOutcome)>)> = vec![
+            ("no coefficients", Box::new(|o| o.coefficients.clear())),
+            ("estimate that is not a finite", Box::new(|o| o.coefficients[0].estimate = Some(f64::NAN))),
+            ("standard error that is not a finite", Box::new(|o| o.coefficients[1].std_error = Some(f64::INFINITY))),
+            ("p-value outside 0 to 1", Box::new(|o| o.coefficients[1].p_value = Some(1.5))),
+            ("statistic 'n' is infinite", Box::new(|o| o.statistics[0].value = f64::INFINITY)),
+            ("2 values for 3 rows", Box::new(|o| o.rows[0].values.pop().map(drop).unwrap_or(()))),
+            ("infinite value", Box::new(|o| o.rows[0].values[0] = f64::NEG_INFINITY)),
+            ("names row 3 of 3", Box::new(|o| drop(o.statistic_rows.insert("n".into(), 3)))),
+            ("does not have", Box::new(|o| drop(o.statistic_rows.insert("missing".into(), 0)))),
+            ("a warning names row 9", Box::new(|o| o.row_warnings.push(RowWarning { row: 9, text: "{row}".into() }))),
+            ("not 2 × 2", Box::new(|o| o.predictor.as_mut().unwrap().covariance.pop().map(drop).unwrap_or(()))),
+            ("not a finite number", Box::new(|o| o.predictor.as_mut().unwrap().covariance[0][1] = f64::NAN)),
+            ("3 formulas for 2", Box::new(|o| {
+                if let PredictorForm::Linear { model_row } = &mut o.predictor.as_mut().unwrap().form {
+                    model_row.push(Formula::Number(1.0));
+                }
+            })),
+            ("beyond the 1 sent", Box::new(|o| {
+                if let PredictorForm::Linear { model_row } = &mut o.predictor.as_mut().unwrap().form {
+                    model_row[1] = Formula::Column(1);
+                }
+            })),
+            ("coefficient beyond", Box::new(|o| o.predictor.as_mut().unwrap().form = PredictorForm::Model { formula: Formula::Parameter(2) })),
+            ("residual standard deviation", Box::new(|o| o.predictor.as_mut().unwrap().residual_sd = Some(-1.0))),
+            ("log-likelihood", Box::new(|o| o.likelihood.as_mut().unwrap().log_likelihood = f64::NAN)),
+            ("residual sum of squares", Box::new(|o| o.least_squares = Some(LeastSquares { ss_resid: -1.0, df_resid: 1.0, r_squared: 0.5, adj_r_squared: 0.0 }))),
+        ];
+        for (want, spoil) in cases {
+            let mut o = outcome();
+            spoil(&mut o);
+            let e = o.check_shape(&req).expect_err(want);
+            assert!(e.contains(want), "expected '{want}' in '{e}'");
+        }
+    }
+
+    #[test]
+    fn formulas_differentiate_by_the_rules_of_calculus() {
+        // d/da, d/db of a·x^b + sin(a/b) at a = 2, b = 3, x = 1.5, worked by
+        // hand (common practice): ∂/∂a = x^b + cos(a/b)/b,
+        // ∂/∂b = a·x^b·ln x − a·cos(a/b)/b².
+        let (a, b, x) = (2.0f64, 3.0f64, 1.5f64);
+        let f = Formula::Add(
+            Box::new(Formula::Mul(Box::new(Formula::Parameter(0)), Box::new(Formula::pow(Formula::Column(0), Formula::Parameter(1))))),
+            Box::new(Formula::Call(Function::Sin, Box::new(Formula::Div(Box::new(Formula::Parameter(0)), Box::new(Formula::Parameter(1)))))),
+        );
+        let (v, g) = f.gradient(&[x], &[a, b]);
+        assert!((v - (a * x.powf(b) + (a / b).sin())).abs() < 1e-14);
+        assert!((g[0] - (x.powf(b) + (a / b).cos() / b)).abs() < 1e-14);
+        assert!((g[1] - (a * x.powf(b) * x.ln() - a * (a / b).cos() / (b * b))).abs() < 1e-13);
+        assert_eq!(f.eval(&[x], &[a, b]), v);
+        assert_eq!((f.max_column(), f.max_parameter()), (Some(0), Some(1)));
+        // Every function's derivative against a central difference (common practice).
+        for func in [Function::Log, Function::Log10, Function::Exp, Function::Sqrt, Function::Abs, Function::Sin, Function::Cos, Function::Tan, Function::Atan] {
+            let (x, h) = (0.7, 1e-6);
+            let num = (func.apply(x + h) - func.apply(x - h)) / (2.0 * h);
+            assert!((func.derivative(x) - num).abs() < 1e-8, "{}", func.name());
+            assert_eq!(Function::from_name(func.name()), Some(func));
+        }
     }
 }

@@ -10,6 +10,7 @@
 //! spreadsheet formulas of the prediction calculator. Nothing here knows of
 //! workbooks or writers.
 
+use crate::protocol::{Formula, Function};
 use std::collections::BTreeMap;
 
 /// A binary operation of a term.
@@ -27,52 +28,44 @@ pub enum Op {
     Pow,
 }
 
-/// A transform of the fit language.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Func {
-    /// Natural logarithm.
-    Log,
-    /// Common logarithm.
-    Log10,
-    /// Exponential.
-    Exp,
-    /// Square root.
-    Sqrt,
-    /// Absolute value.
-    Abs,
+/// A transform of the fit language: the protocol's [`Function`] (one list
+/// of functions for the whole program).
+pub type Func = Function;
+
+/// The standard spreadsheet function of the same meaning (names of the
+/// OpenFormula standard, which every spreadsheet application reads).
+fn sheet_function(f: Function) -> &'static str {
+    match f {
+        Function::Log => "LN",
+        Function::Log10 => "LOG10",
+        Function::Exp => "EXP",
+        Function::Sqrt => "SQRT",
+        Function::Abs => "ABS",
+        Function::Sin => "SIN",
+        Function::Cos => "COS",
+        Function::Tan => "TAN",
+        Function::Atan => "ATAN",
+    }
 }
 
-impl Func {
-    /// The transform of a fit-language name (`log`, `log10`, …).
-    pub fn from_name(name: &str) -> Option<Func> {
-        Some(match name.to_lowercase().as_str() {
-            "log" => Func::Log,
-            "log10" => Func::Log10,
-            "exp" => Func::Exp,
-            "sqrt" => Func::Sqrt,
-            "abs" => Func::Abs,
-            _ => return None,
-        })
-    }
-    fn apply(self, x: f64) -> f64 {
-        match self {
-            Func::Log => x.ln(),
-            Func::Log10 => x.log10(),
-            Func::Exp => x.exp(),
-            Func::Sqrt => x.sqrt(),
-            Func::Abs => x.abs(),
-        }
-    }
-    /// The standard spreadsheet function of the same meaning.
-    fn sheet_name(self) -> &'static str {
-        match self {
-            Func::Log => "LN",
-            Func::Log10 => "LOG10",
-            Func::Exp => "EXP",
-            Func::Sqrt => "SQRT",
-            Func::Abs => "ABS",
-        }
-    }
+/// A [`Formula`] of a fit's model row as spreadsheet formula text, each
+/// [`Formula::Column`]`(j)` replaced by `columns[j]` (the formula or cell
+/// computing the request's column `j`). A formula with parameters, or
+/// naming a column not given, has none.
+pub fn sheet_formula(f: &Formula, columns: &[String]) -> Option<String> {
+    let p = |f: &Formula| sheet_formula(f, columns);
+    Some(match f {
+        Formula::Number(x) => number_literal(*x),
+        Formula::Column(j) => columns.get(*j)?.clone(),
+        Formula::Parameter(_) => return None,
+        Formula::Neg(a) => format!("(-{})", p(a)?),
+        Formula::Add(a, b) => format!("(({})+({}))", p(a)?, p(b)?),
+        Formula::Sub(a, b) => format!("(({})-({}))", p(a)?, p(b)?),
+        Formula::Mul(a, b) => format!("(({})*({}))", p(a)?, p(b)?),
+        Formula::Div(a, b) => format!("(({})/({}))", p(a)?, p(b)?),
+        Formula::Pow(a, b) => format!("(({})^({}))", p(a)?, p(b)?),
+        Formula::Call(g, a) => format!("{}({})", sheet_function(*g), p(a)?),
+    })
 }
 
 /// One node of a term.
@@ -204,6 +197,19 @@ impl Recipe {
         Ok(self.expand(values, cells)?.into_iter().map(|s| (s.value, s.formula)).collect())
     }
 
+    /// The values of the request's columns (the model columns the resolver
+    /// sent, intercept excluded) at new input values.
+    pub fn columns_at(&self, values: &[NewValue]) -> Result<Vec<f64>, String> {
+        let refs: Vec<String> = self.inputs.iter().map(|i| i.name.clone()).collect();
+        Ok(self.expand(values, &refs)?.into_iter().skip(usize::from(self.intercept)).map(|s| s.value).collect())
+    }
+
+    /// The request's columns as spreadsheet formulas over the cells holding
+    /// the inputs (`cells[i]`, such as `$C$5`), with their values at `values`.
+    pub fn column_formulas(&self, values: &[NewValue], cells: &[String]) -> Result<Vec<(f64, String)>, String> {
+        Ok(self.expand(values, cells)?.into_iter().skip(usize::from(self.intercept)).map(|s| (s.value, s.formula)).collect())
+    }
+
     fn expand(&self, values: &[NewValue], cells: &[String]) -> Result<Vec<Sym>, String> {
         if values.len() != self.inputs.len() || cells.len() != self.inputs.len() {
             return Err(format!("{} values for {} inputs", values.len(), self.inputs.len()));
@@ -286,7 +292,7 @@ impl Recipe {
             }
             Node::Call(f, a) => {
                 let a = num(self.eval(a, values, cells)?)?;
-                Ev::Num(Sym { value: f.apply(a.value), formula: format!("{}({})", f.sheet_name(), a.formula) })
+                Ev::Num(Sym { value: f.apply(a.value), formula: format!("{}({})", sheet_function(*f), a.formula) })
             }
             Node::Bin(Op::Mul, a, b) => {
                 let mut parts = Vec::new();

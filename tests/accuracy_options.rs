@@ -9,7 +9,7 @@ mod common;
 use common::output;
 use plumb::cells::{Grid, Workbook};
 use plumb::fits::Registry;
-use plumb::layout::Status;
+use plumb::report::Status;
 use plumb::numeric::t_sf;
 use plumb::pipeline::{evaluate_book, run, RunConfig};
 

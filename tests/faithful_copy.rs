@@ -49,7 +49,7 @@ fn the_demo_survives_the_copy_and_shows_its_typo() {
     let s = run_to(&input, &out);
     assert_faithful(&input, &out);
     // The deliberate typo is an error at its cell; the others fit.
-    let failed: Vec<_> = s.reports.iter().filter(|r| r.status == plumb::layout::Status::Error).collect();
+    let failed: Vec<_> = s.reports.iter().filter(|r| r.status == plumb::report::Status::Error).collect();
     assert_eq!(failed.len(), 1, "{:?}", s.reports.iter().map(|r| (&r.text, &r.messages)).collect::<Vec<_>>());
     assert!(failed[0].text.contains("Ligth"));
     let b: Workbook = read_workbook(&out).unwrap();

@@ -3,7 +3,7 @@
 
 use plumb::cells::{Grid, Workbook};
 use plumb::fits::Registry;
-use plumb::layout::Status;
+use plumb::report::Status;
 use plumb::pipeline::evaluate_book;
 
 /// A sheet "Weekly" with a small table (Bay text, Light, CO2, Yield) and the

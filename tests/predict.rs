@@ -8,7 +8,7 @@ mod common;
 
 use common::output::{self, num, text};
 use plumb::fits::Registry;
-use plumb::layout::Status;
+use plumb::report::Status;
 use plumb::pipeline::{run, RunConfig};
 use rust_xlsxwriter::{DocProperties, ExcelDateTime, Workbook};
 use serde_json::Value as Json;

@@ -115,7 +115,7 @@ proptest! {
         let d = std::env::temp_dir().join(format!("plumb-prop-{}", std::process::id()));
         std::fs::create_dir_all(&d).unwrap();
         let out = d.join("round.xlsx");
-        let info = plumb::layout::RunInfo { version: "0".into(), input_name: "p.xlsx".into(), input_sha256: String::new(), time: "2026-01-01 00:00:00".into() };
+        let info = plumb::report::RunInfo { version: "0".into(), input_name: "p.xlsx".into(), input_sha256: String::new(), time: "2026-01-01 00:00:00".into() };
         let laid = plumb::layout::lay_out(&book, &[], &info);
         plumb::write::write_book(&book, &laid, &out, &plumb::write::WriteOptions { created_unix: 0, zip_level: 1 }).expect("write");
         let back = plumb::read::read_workbook(&out).expect("read back");

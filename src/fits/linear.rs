@@ -7,7 +7,10 @@
 use super::{Fit, FitError};
 use crate::numeric::diagnostics::{self as diag, ErrorKind};
 use crate::numeric::{self, LsProblem};
-use crate::protocol::{Coefficient, FitOutcome, FitRequest, FunctionSpec, OptionValue, ParamKind, ParamSpec, RowColumn, RowWarning, Statistic};
+use crate::protocol::{
+    Coefficient, FitOutcome, FitRequest, Formula, FunctionSpec, LeastSquares, Likelihood, Link, NumberFormat, OptionValue, ParamKind, ParamSpec, Predictor, PredictorForm, RowColumn, RowRole,
+    RowWarning, Statistic,
+};
 
 /// The label of the intercept term.
 pub const INTERCEPT: &str = "(intercept)";
@@ -96,7 +99,17 @@ pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], PowerColumns)> {
 }
 
 fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
-    Statistic { key: key.into(), label: label.into(), group: group.into(), value }
+    Statistic::new(key, label, group, value)
+}
+
+/// A count or degrees of freedom.
+fn count(key: &str, label: &str, group: &str, value: f64) -> Statistic {
+    Statistic::new(key, label, group, value).format(NumberFormat::Integer)
+}
+
+/// A p-value.
+fn pval(key: &str, label: &str, group: &str, value: f64) -> Statistic {
+    Statistic::new(key, label, group, value).format(NumberFormat::PValue)
 }
 
 fn finite(x: f64) -> Option<f64> {
@@ -192,34 +205,59 @@ impl Fit for Linear {
         let a = "Analysis of variance";
         let r2_label = if req.intercept { "R²" } else { "R² (uncentred, no intercept)" };
         out.statistics = vec![
-            stat("n", "Rows used (n)", g, fit.n as f64),
-            stat("parameters", "Parameters estimated", g, fit.rank as f64),
+            count("n", "Rows used (n)", g, fit.n as f64),
+            count("parameters", "Parameters estimated", g, fit.rank as f64),
             stat("r_squared", r2_label, g, fit.r_squared),
             stat("adj_r_squared", "Adjusted R²", g, fit.adj_r_squared),
             stat("rmse", "Root mean squared error", g, fit.sigma),
             stat("f_statistic", "F statistic", g, fit.f_statistic),
-            stat("f_p_value", "p-value of F", g, fit.f_p_value),
+            pval("f_p_value", "p-value of F", g, fit.f_p_value),
             stat("log_likelihood", "Log-likelihood", g, fit.log_likelihood),
             stat("aic", "AIC", g, fit.aic),
             stat("bic", "BIC", g, fit.bic),
-            stat("df_model", "Degrees of freedom, regression", a, fit.df_model),
+            count("df_model", "Degrees of freedom, regression", a, fit.df_model),
             stat("ss_model", "Sum of squares, regression", a, fit.ssr),
             stat("ms_model", "Mean square, regression", a, fit.ssr / fit.df_model),
-            stat("df_resid", "Degrees of freedom, residual", a, fit.df_resid),
+            count("df_resid", "Degrees of freedom, residual", a, fit.df_resid),
             stat("ss_resid", "Sum of squares, residual", a, fit.sse),
             stat("ms_resid", "Mean square, residual", a, fit.sse / fit.df_resid),
             stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
-            stat("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
+            count("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
             stat("anova_f", "F (mean square regression / mean square residual)", a, fit.f_statistic),
-            stat("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
+            pval("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());
         }
-        // Covariance for predictions (column-major p×p from the fit; NaN of aliased terms as 0).
-        out.covariance = Some(
-            (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
-        );
+        // An exact fit (no residual) has an infinite F: say so, and leave
+        // the cells blank (an outcome's statistics are finite or NaN).
+        if out.statistics.iter().any(|s| s.value.is_infinite()) {
+            out.notes.push("the fit is exact (every residual is zero), so F is infinite and its cells are left blank".into());
+            for s in &mut out.statistics {
+                if s.value.is_infinite() {
+                    s.value = f64::NAN;
+                }
+            }
+        }
+        // What predictions need: the model row (intercept, then the columns
+        // as sent), the covariance (column-major p×p from the fit; NaN of
+        // aliased terms as 0), the residual spread and its degrees of freedom.
+        let mut model_row: Vec<Formula> = Vec::with_capacity(p);
+        if req.intercept {
+            model_row.push(Formula::Number(1.0));
+        }
+        model_row.extend((0..req.columns.len()).map(Formula::Column));
+        out.predictor = Some(Predictor {
+            form: PredictorForm::Linear { model_row },
+            covariance: (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
+            link: Link::Identity,
+            residual_sd: (fit.sigma.is_finite() && fit.sigma > 0.0).then_some(fit.sigma),
+            df: (fit.df_resid > 0.0).then_some(fit.df_resid),
+        });
+        // AIC and BIC count the estimated coefficients (the rank), as the
+        // statistics above do.
+        out.likelihood = fit.log_likelihood.is_finite().then_some(Likelihood { log_likelihood: fit.log_likelihood, parameters: fit.rank as f64, observations: fit.n as f64 });
+        out.least_squares = Some(LeastSquares { ss_resid: fit.sse, df_resid: fit.df_resid, r_squared: fit.r_squared, adj_r_squared: fit.adj_r_squared });
         let std_res = numeric::standardized_residuals(&fit);
         let cooks = numeric::cooks_distance(&fit);
         let external = diag::studentized_residuals_external(&fit);
@@ -232,13 +270,13 @@ impl Fit for Linear {
         }
         diagnose(&fit, &x, &labels, &structural, &vif, &cooks, &external, &mut out);
         out.rows = vec![
-            RowColumn { key: "fitted".into(), label: "Fitted".into(), values: fit.fitted.clone() },
-            RowColumn { key: "residual".into(), label: "Residual".into(), values: fit.residuals.clone() },
-            RowColumn { key: "std_residual".into(), label: "Standardized residual".into(), values: std_res },
-            RowColumn { key: "leverage".into(), label: "Leverage".into(), values: fit.leverage.clone() },
-            RowColumn { key: "cooks_distance".into(), label: "Cook's distance".into(), values: cooks },
-            RowColumn { key: "studentized_residual".into(), label: "Studentized residual".into(), values: external },
-            RowColumn { key: "dffits".into(), label: "DFFITS".into(), values: dffits },
+            RowColumn::new(RowRole::Fitted, fit.fitted.clone()),
+            RowColumn::new(RowRole::Residual, fit.residuals.clone()),
+            RowColumn::new(RowRole::StandardizedResidual, std_res),
+            RowColumn::new(RowRole::Leverage, fit.leverage.clone()),
+            RowColumn::new(RowRole::CooksDistance, cooks),
+            RowColumn::new(RowRole::StudentizedResidual, external),
+            RowColumn::new(RowRole::Dffits, dffits),
         ];
         Ok(out)
     }
@@ -291,14 +329,14 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bo
     let bp = diag::breusch_pagan(&u, &fit.fitted, x, n, p, fit.has_intercept);
     if let Some(bp) = &bp {
         out.statistics.push(stat("bp_koenker", "Breusch–Pagan (Koenker, studentized)", rc, bp.koenker));
-        out.statistics.push(stat("bp_koenker_p_value", "p-value of Breusch–Pagan (Koenker)", rc, bp.koenker_p));
+        out.statistics.push(pval("bp_koenker_p_value", "p-value of Breusch–Pagan (Koenker)", rc, bp.koenker_p));
         out.statistics.push(stat("bp_original", "Breusch–Pagan (original)", rc, bp.original));
-        out.statistics.push(stat("bp_original_p_value", "p-value of Breusch–Pagan (original)", rc, bp.original_p));
-        out.statistics.push(stat("bp_df", "Degrees of freedom of Breusch–Pagan", rc, bp.df));
+        out.statistics.push(pval("bp_original_p_value", "p-value of Breusch–Pagan (original)", rc, bp.original_p));
+        out.statistics.push(count("bp_df", "Degrees of freedom of Breusch–Pagan", rc, bp.df));
     }
     let jb = diag::jarque_bera(&u);
     out.statistics.push(stat("jarque_bera", "Jarque–Bera", rc, jb.statistic));
-    out.statistics.push(stat("jarque_bera_p_value", "p-value of Jarque–Bera", rc, jb.p_value));
+    out.statistics.push(pval("jarque_bera_p_value", "p-value of Jarque–Bera", rc, jb.p_value));
     out.statistics.push(stat("skewness", "Skewness of residuals", rc, jb.skewness));
     out.statistics.push(stat("kurtosis", "Kurtosis of residuals", rc, jb.kurtosis));
 
@@ -323,9 +361,9 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bo
         out.statistics.push(stat("max_studentized_residual", "Largest studentized residual (by size)", inf, v));
         out.statistic_rows.insert("max_studentized_residual".into(), i);
     }
-    out.statistics.push(stat("leverage_flag_count", "Rows with leverage above 2p/n", inf, diag::count_above(&fit.leverage, lev_limit, false) as f64));
-    out.statistics.push(stat("cooks_flag_count", "Rows with Cook's distance above 4/n", inf, diag::count_above(cooks, cook_limit, false) as f64));
-    out.statistics.push(stat("studentized_flag_count", "Rows with |studentized residual| above 3", inf, diag::count_above(external, STUDENTIZED_FLAG, true) as f64));
+    out.statistics.push(count("leverage_flag_count", "Rows with leverage above 2p/n", inf, diag::count_above(&fit.leverage, lev_limit, false) as f64));
+    out.statistics.push(count("cooks_flag_count", "Rows with Cook's distance above 4/n", inf, diag::count_above(cooks, cook_limit, false) as f64));
+    out.statistics.push(count("studentized_flag_count", "Rows with |studentized residual| above 3", inf, diag::count_above(external, STUDENTIZED_FLAG, true) as f64));
 
     // Warnings in plain words.
     if dw.is_finite() && n >= 3 && (dw < DW_BAND.0 || dw > DW_BAND.1) {

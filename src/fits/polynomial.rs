@@ -9,7 +9,7 @@
 
 use super::linear::{shared_options, Linear};
 use super::{Fit, FitError};
-use crate::protocol::{Column, FitOutcome, FitRequest, FunctionSpec, OptionValue, ParamKind, ParamSpec, PowerOf};
+use crate::protocol::{Column, FitOutcome, FitRequest, Formula, FunctionSpec, OptionValue, ParamKind, ParamSpec, PowerOf, PredictorForm};
 
 /// The highest degree accepted.
 pub const MAX_DEGREE: u32 = 30;
@@ -101,6 +101,18 @@ impl Fit for Polynomial {
         options.remove("degree");
         let linear_req = FitRequest { function: "linear".into(), columns, options, ..req.clone() };
         let mut out = self.linear.fit(&linear_req)?;
+        // The linear fit's model row names the powers it was sent; a new
+        // point gives only x, so the row is 1, x, x², … of request column 0.
+        if let Some(pr) = &mut out.predictor {
+            if let PredictorForm::Linear { model_row } = &mut pr.form {
+                for f in model_row.iter_mut() {
+                    if let Formula::Column(j) = *f {
+                        let e = j as f64 + 1.0;
+                        *f = if j == 0 { Formula::Column(0) } else { Formula::pow(Formula::Column(0), Formula::Number(e)) };
+                    }
+                }
+            }
+        }
         out.notes.push(format!(
             "polynomial of degree {degree} in {}: fitted in a centred and scaled basis, coefficients reported for the powers of {} as given",
             base.name, base.name

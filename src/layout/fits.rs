@@ -1,0 +1,39 @@
+//! The Fits sheet: one row per request, with its status and messages.
+
+use super::{link_to, OutCell, Sheet, Style};
+use crate::report::{Report, Status};
+
+/// The Fits sheet; each fit's name links to its first coefficient row.
+pub(super) fn sheet(fits_n: &str, coef_n: &str, reports: &[Report], first_coef_row: &[Option<u32>]) -> Sheet {
+    let mut fits = Sheet::new(fits_n);
+    fits.header(
+        0,
+        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 80.0)],
+    );
+    for (i, r) in reports.iter().enumerate() {
+        let row = i as u32 + 1;
+        let mut name = OutCell::text(&r.name, Style::Plain);
+        if let Some(cr) = first_coef_row[i] {
+            name = OutCell::text(&r.name, Style::Link).link(link_to(coef_n, cr, 0));
+        }
+        fits.put(row, 0, name);
+        fits.put(row, 1, OutCell::text(&r.function, Style::Plain));
+        fits.put(row, 2, OutCell::text(&r.response, Style::Plain));
+        fits.put(row, 3, OutCell::text(r.terms.join(" + "), Style::Plain));
+        fits.put(row, 4, OutCell::text(r.cell.to_string(), Style::Link).link(link_to(&r.cell.sheet, r.cell.row, r.cell.col)));
+        if r.outcome.is_some() {
+            fits.put(row, 5, OutCell::number(r.rows_used as f64, Style::Integer));
+            fits.put(row, 6, OutCell::number(r.rows_left_out as f64, Style::Integer));
+        }
+        let st = match r.status {
+            Status::Ok => Style::Good,
+            Status::Warning => Style::Warning,
+            Status::Error => Style::Error,
+        };
+        fits.put(row, 7, OutCell::text(r.status.as_str(), st));
+        fits.put(row, 8, OutCell::text(r.messages.join(" | "), Style::Plain));
+    }
+    fits.close_table(0, 9);
+
+    fits
+}

@@ -1,0 +1,338 @@
+//! Arranging outcomes into an abstract workbook.
+//!
+//! Layout decides what goes where — the result sheets, the one-line outcome
+//! at each request cell, the residual columns beside each fit's data — in a
+//! plain model of sheets, cells, styles and links. It knows nothing of any
+//! writer library, so it is tested without files; `write` renders it.
+//!
+//! One file per result sheet: `fits.rs`, `coefficients.rs`, `intervals.rs`
+//! (interval table, `#predict` tables, prediction calculators),
+//! `diagnostics.rs`, `comparisons.rs`, `charts.rs`, `guide.rs`, `about.rs`;
+//! `overlays.rs` holds what is added to the source sheets. This file holds
+//! the model and [`lay_out`], which calls them in order.
+//!
+//! Source sheets are not copied into the model: they get an [`Overlay`] of
+//! replaced cells and added column blocks, which the writer merges with the
+//! source grid row by row.
+
+mod about;
+mod charts;
+mod coefficients;
+mod comparisons;
+mod diagnostics;
+mod fits;
+mod guide;
+mod intervals;
+mod overlays;
+
+pub use charts::{chart_subset, CHART_POINTS};
+pub use intervals::CALCULATOR_MAX_TERMS;
+pub use overlays::outcome_line;
+
+use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Workbook};
+use crate::report::{Report, RunInfo};
+use std::collections::{BTreeMap, HashSet};
+
+/// How a cell looks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Style {
+    /// No formatting.
+    Plain,
+    /// A table header: bold, shaded.
+    Header,
+    /// A sheet or block title: bold, larger.
+    Title,
+    /// A number shown to six significant digits (the cell keeps every digit).
+    Number,
+    /// A whole number.
+    Integer,
+    /// A p-value: four decimals, or scientific below 0.0001.
+    PValue,
+    /// Text that wraps within the column.
+    Wrap,
+    /// A request outcome that went well: bold.
+    Good,
+    /// A warning: dark orange text.
+    Warning,
+    /// An error: dark red text.
+    Error,
+    /// A link: underlined blue.
+    Link,
+    /// A date.
+    Date,
+    /// A date and time.
+    DateTime,
+    /// A time of day.
+    Time,
+    /// A cell the reader types into: shaded, bordered.
+    Input,
+}
+
+/// What a cell holds.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Content {
+    /// Nothing (a styled blank).
+    Blank,
+    /// A number.
+    Number(f64),
+    /// Text.
+    Text(String),
+    /// A boolean.
+    Bool(bool),
+    /// A date-time serial of the 1900 system.
+    DateTime(f64, DateKind),
+    /// An error value.
+    Error(ErrorValue),
+    /// A formula (without `=`) and its last computed value.
+    Formula(String, Cached),
+}
+
+/// The last computed value of a formula.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cached {
+    /// No value.
+    Empty,
+    /// A number.
+    Number(f64),
+    /// Text.
+    Text(String),
+    /// A boolean.
+    Bool(bool),
+    /// An error value.
+    Error(ErrorValue),
+}
+
+/// One cell of the model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OutCell {
+    /// Value.
+    pub content: Content,
+    /// Look.
+    pub style: Style,
+    /// An internal link target such as `'Coefficients'!A5`.
+    pub link: Option<String>,
+    /// A note shown when the reader hovers over the cell.
+    pub note: Option<String>,
+}
+
+impl OutCell {
+    /// A cell with content and style.
+    pub fn new(content: Content, style: Style) -> Self {
+        OutCell { content, style, link: None, note: None }
+    }
+    /// Text in a style.
+    pub fn text(t: impl Into<String>, style: Style) -> Self {
+        OutCell::new(Content::Text(t.into()), style)
+    }
+    /// A number in a style; NaN becomes a blank.
+    pub fn number(x: f64, style: Style) -> Self {
+        if x.is_finite() {
+            OutCell::new(Content::Number(x), style)
+        } else {
+            OutCell::new(Content::Blank, style)
+        }
+    }
+    /// An optional number.
+    pub fn maybe(x: Option<f64>, style: Style) -> Self {
+        OutCell::number(x.unwrap_or(f64::NAN), style)
+    }
+    /// Adds a link.
+    pub fn link(mut self, target: impl Into<String>) -> Self {
+        self.link = Some(target.into());
+        self
+    }
+}
+
+/// A result sheet.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Sheet {
+    /// Name.
+    pub name: String,
+    /// Cells by (row, column).
+    pub cells: BTreeMap<(u32, u32), OutCell>,
+    /// Column widths in characters.
+    pub widths: BTreeMap<u32, f64>,
+    /// Rows and columns frozen above and left of this cell.
+    pub freeze: Option<(u32, u32)>,
+    /// A filter over a table.
+    pub filter: Option<CellRange>,
+    /// Cells that offer a drop-down list of these choices.
+    pub choices: BTreeMap<(u32, u32), Vec<String>>,
+    /// Charts placed on the sheet.
+    pub charts: Vec<ChartSpec>,
+}
+
+/// A native chart of the workbook, reading cells (no writer types).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChartSpec {
+    /// Top-left cell (row, column) of the chart on its sheet.
+    pub anchor: (u32, u32),
+    /// Title.
+    pub title: String,
+    /// Label of the horizontal axis.
+    pub x_label: String,
+    /// Label of the vertical axis.
+    pub y_label: String,
+    /// The series, drawn in order.
+    pub series: Vec<SeriesSpec>,
+}
+
+/// One series of a scatter chart: x and y from one-column ranges.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SeriesSpec {
+    /// Legend name.
+    pub name: String,
+    /// Sheet holding the cells.
+    pub sheet: String,
+    /// Column of the x values.
+    pub x_col: u32,
+    /// Column of the y values.
+    pub y_col: u32,
+    /// First row (inclusive).
+    pub first_row: u32,
+    /// Last row (inclusive).
+    pub last_row: u32,
+    /// Drawn as a line without markers (else markers without a line).
+    pub line: bool,
+}
+
+impl Sheet {
+    pub(crate) fn new(name: &str) -> Self {
+        Sheet { name: name.to_string(), ..Default::default() }
+    }
+    pub(crate) fn put(&mut self, row: u32, col: u32, cell: OutCell) {
+        self.cells.insert((row, col), cell);
+    }
+    /// Writes a header row and freezes it, with a filter over the table
+    /// that will follow.
+    pub(crate) fn header(&mut self, row: u32, labels: &[(&str, f64)]) {
+        for (c, (label, width)) in labels.iter().enumerate() {
+            self.put(row, c as u32, OutCell::text(*label, Style::Header));
+            self.widths.insert(c as u32, *width);
+        }
+        self.freeze = Some((row + 1, 0));
+    }
+    pub(crate) fn close_table(&mut self, header_row: u32, cols: u32) {
+        let last = self.cells.keys().map(|k| k.0).max().unwrap_or(header_row);
+        self.filter = Some(CellRange { first_row: header_row, first_col: 0, last_row: last.max(header_row), last_col: cols - 1 });
+    }
+}
+
+/// A column of per-row results added to a source sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ColumnBlock {
+    /// Column on the source sheet.
+    pub col: u32,
+    /// Header cell row and text.
+    pub header: Option<(u32, String)>,
+    /// Absolute sheet rows, ascending, one per value.
+    pub rows: Vec<u32>,
+    /// Values; NaN shows as a blank.
+    pub values: Vec<f64>,
+}
+
+/// Changes to one source sheet.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Overlay {
+    /// Cells that replace source cells (request outcomes).
+    pub cells: BTreeMap<(u32, u32), OutCell>,
+    /// Added result columns.
+    pub blocks: Vec<ColumnBlock>,
+    /// Widths for added columns.
+    pub widths: BTreeMap<u32, f64>,
+}
+
+/// The whole output: overlays for the source sheets, in source order, then
+/// the result sheets.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Book {
+    /// One overlay per source sheet.
+    pub overlays: Vec<Overlay>,
+    /// The result sheets in order.
+    pub sheets: Vec<Sheet>,
+    /// Whether source formulas are kept (false when the source's formula
+    /// syntax is not that of the output format).
+    pub keep_formulas: bool,
+}
+
+/// Names of the result sheets.
+/// Comparisons and Charts come last in this list but are placed after
+/// Diagnostics, and only when they have content.
+pub const RESULT_SHEETS: [&str; 8] = ["Fits", "Coefficients", "Intervals", "Diagnostics", "Guide", "About", "Comparisons", "Charts"];
+
+/// A result sheet name that does not clash with a source sheet: the plain
+/// name, else the name with ` (plumb)`, else with a number.
+fn unique_name(base: &str, taken: &HashSet<String>) -> String {
+    let free = |n: &str| !taken.contains(&n.to_lowercase());
+    if free(base) {
+        return base.to_string();
+    }
+    let alt = format!("{base} (plumb)");
+    if free(&alt) {
+        return alt;
+    }
+    (2..).map(|i| format!("{base} {i}")).find(|n| free(n)).unwrap_or_else(|| base.to_string())
+}
+
+pub(crate) fn link_to(sheet: &str, row: u32, col: u32) -> String {
+    format!("{}!{}", quote_sheet_name(sheet), CellAddress::new(sheet, row, col).local())
+}
+
+/// The names of the result sheets in this workbook (see [`RESULT_SHEETS`]).
+struct SheetNames {
+    fits: String,
+    coefficients: String,
+    intervals: String,
+    diagnostics: String,
+    guide: String,
+    about: String,
+    comparisons: String,
+    charts: String,
+}
+
+impl SheetNames {
+    fn new(book: &Workbook) -> Self {
+        let taken: HashSet<String> = book.sheets.iter().map(|g| g.name.to_lowercase()).collect();
+        let n: Vec<String> = RESULT_SHEETS.iter().map(|n| unique_name(n, &taken)).collect();
+        let mut it = n.into_iter();
+        let mut next = || it.next().unwrap_or_default();
+        SheetNames { fits: next(), coefficients: next(), intervals: next(), diagnostics: next(), guide: next(), about: next(), comparisons: next(), charts: next() }
+    }
+}
+
+/// Lays out the whole output.
+pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
+    let names = SheetNames::new(book);
+    // Coefficients first: other sheets link to its rows.
+    let (coef, first_coef_row) = coefficients::sheet(&names.coefficients, reports);
+    let (ints, mut host_links) = intervals::sheet(&names.intervals, reports);
+    let (comparisons, cmp_links) = comparisons::sheet(&names.comparisons, reports);
+    for (l, c) in host_links.iter_mut().zip(cmp_links) {
+        if l.is_none() {
+            *l = c;
+        }
+    }
+    let charts = charts::sheet(&names.charts, reports);
+    let fits = fits::sheet(&names.fits, &names.coefficients, reports, &first_coef_row);
+    let diag = diagnostics::sheet(&names.diagnostics, reports);
+    let overlays = overlays::overlays(book, reports, &names, &first_coef_row, &host_links);
+    let guide = guide::sheet(&names.guide);
+    let about = about::sheet(&names.about, reports, info);
+    let mut sheets = vec![fits, coef, ints, diag];
+    sheets.extend(comparisons);
+    sheets.extend(charts);
+    sheets.extend([guide, about]);
+    Book { overlays, sheets, keep_formulas: true }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn result_sheets_do_not_clash_with_source_sheets() {
+        let taken: HashSet<String> = ["fits".to_string(), "fits (plumb)".to_string()].into_iter().collect();
+        assert_eq!(unique_name("Fits", &taken), "Fits 2");
+        assert_eq!(unique_name("Guide", &taken), "Guide");
+    }
+}
