@@ -63,6 +63,14 @@ fn book(dir: &Path, requests: &[&str]) -> PathBuf {
             plan.write_number(i as u32 + 1, j as u16, p[*h].as_f64().unwrap()).unwrap();
         }
     }
+    // The new AIRFLOW values of the polynomial's reference predictions.
+    let poly = wb.add_worksheet();
+    poly.set_name("PolyPlan").unwrap();
+    poly.write_string(0, 0, "AIRFLOW").unwrap();
+    let points = reference()["polynomial"]["predictions"].as_array().unwrap().iter().filter(|p| p["level"] == 0.95).map(|p| p["point"]["AIRFLOW"].as_f64().unwrap()).collect::<Vec<_>>();
+    for (i, x) in points.iter().enumerate() {
+        poly.write_number(i as u32 + 1, 0, *x).unwrap();
+    }
     wb.save(&path).unwrap();
     path
 }
@@ -127,6 +135,51 @@ fn predictions_and_intervals_match_statsmodels() {
     // The one-point request cell holds the predicted value as a number.
     let plant = output::table(&out, "Plant");
     close(num(&plant[7][6]).expect("the request cell holds a number"), refs["predictions"][0]["mean"].as_f64().unwrap(), "request cell");
+    let _ = std::fs::remove_dir_all(&d);
+}
+
+#[test]
+fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
+    // #polynomial forms the powers itself; its outcome says how a new x
+    // becomes the model row (1, x, x²), so #predict and the calculator work.
+    // Reference: statsmodels 0.15.0 OLS of STACKLOSS ~ AIRFLOW + I(AIRFLOW**2),
+    // get_prediction(...).summary_frame() (tests/data/predict_figures.json).
+    let d = tmp("poly");
+    let reqs = ["#polynomial(STACKLOSS, AIRFLOW, degree=2, name=q)", "#predict(q, rows=PolyPlan!A1:A5)", "#predict(q, rows=PolyPlan!A1:A5, level=0.90)", "#predict(q, AIRFLOW=62)"];
+    let input = book(&d, &reqs);
+    let out = d.join("out.xlsx");
+    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    for r in &s.reports {
+        assert_ne!(r.status, Status::Error, "{}: {:?}", r.text, r.messages);
+    }
+    let t = output::table(&out, "Intervals");
+    let refs = reference();
+    for (req, level) in [(reqs[1], 0.95), (reqs[2], 0.90)] {
+        let rows = prediction_rows(&t, req);
+        let want: Vec<&Json> = refs["polynomial"]["predictions"].as_array().unwrap().iter().filter(|p| p["level"].as_f64() == Some(level)).collect();
+        assert_eq!(rows.len(), want.len());
+        for (row, w) in rows.iter().zip(want) {
+            assert_eq!(num(&row[0]), w["point"]["AIRFLOW"].as_f64());
+            let f = |c: usize| num(&row[c]).unwrap_or_else(|| panic!("no number in column {c}"));
+            let what = format!("polynomial, level {level} at {}", w["point"]);
+            for (c, key) in [(1, "mean"), (2, "mean_se"), (3, "mean_ci_lower"), (4, "mean_ci_upper"), (5, "obs_ci_lower"), (6, "obs_ci_upper")] {
+                close(f(c), w[key].as_f64().unwrap(), &format!("{what}: {key}"));
+            }
+        }
+    }
+    // The one-point request holds the prediction at AIRFLOW = 62.
+    let plant = output::table(&out, "Plant");
+    let at62 = refs["polynomial"]["predictions"].as_array().unwrap().iter().find(|p| p["level"] == 0.95 && p["point"]["AIRFLOW"] == 62.0).unwrap();
+    close(num(&plant[4][6]).expect("a number"), at62["mean"].as_f64().unwrap(), "request cell");
+    // The calculator: its cached prediction at the mean of AIRFLOW is
+    // b₀ + b₁·m + b₂·m² (common practice), and the x² term value is a live power.
+    let at = t.iter().position(|r| r.first().and_then(text).is_some_and(|x| x.starts_with("Prediction calculator — q:"))).expect("a calculator for the polynomial");
+    let m = num(&t[at + 3][1]).unwrap();
+    let q = s.reports.iter().find(|r| r.name == "q").unwrap();
+    let b: Vec<f64> = q.outcome.as_ref().unwrap().coefficients.iter().map(|c| c.estimate.unwrap()).collect();
+    let predicted = num(&t[at + 5][1]).expect("a cached predicted value");
+    let by_hand = b[0] + b[1] * m + b[2] * m * m;
+    assert!((predicted - by_hand).abs() < 1e-12 * by_hand.abs(), "{predicted} vs {by_hand}");
     let _ = std::fs::remove_dir_all(&d);
 }
 

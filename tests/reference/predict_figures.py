@@ -51,6 +51,25 @@ for level in (0.95, 0.90):
             "obs_ci_upper": row["obs_ci_upper"],
         })
 
+# A polynomial of degree 2 in AIRFLOW: the same powers plumb's
+# #polynomial(STACKLOSS, AIRFLOW, degree=2) fits, predicted at new AIRFLOW values.
+POLY_POINTS = [{"AIRFLOW": 55.0}, {"AIRFLOW": 62.0}, {"AIRFLOW": 75.0}, {"AIRFLOW": 85.0}]
+poly = smf.ols("STACKLOSS ~ AIRFLOW + I(AIRFLOW**2)", data).fit()
+poly_predictions = []
+for level in (0.95, 0.90):
+    frame = poly.get_prediction(pandas.DataFrame(POLY_POINTS)).summary_frame(alpha=1 - level)
+    for point, (_, row) in zip(POLY_POINTS, frame.iterrows()):
+        poly_predictions.append({
+            "level": level,
+            "point": point,
+            "mean": row["mean"],
+            "mean_se": row["mean_se"],
+            "mean_ci_lower": row["mean_ci_lower"],
+            "mean_ci_upper": row["mean_ci_upper"],
+            "obs_ci_lower": row["obs_ci_lower"],
+            "obs_ci_upper": row["obs_ci_upper"],
+        })
+
 MODELS = {
     "air": "STACKLOSS ~ AIRFLOW",
     "airwater": "STACKLOSS ~ AIRFLOW + WATERTEMP",
@@ -91,6 +110,7 @@ out = {
     },
     "model": MODELS["full"],
     "predictions": predictions,
+    "polynomial": {"formula": "STACKLOSS ~ AIRFLOW + I(AIRFLOW**2)", "predictions": poly_predictions},
     "fits": {k: {"formula": MODELS[k], "aic": v.aic, "bic": v.bic, "rsquared": v.rsquared, "rsquared_adj": v.rsquared_adj, "ssr": v.ssr, "df_resid": v.df_resid} for k, v in fits.items()},
     "nested": nested,
     "normal_quantile_plot": qq,
