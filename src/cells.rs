@@ -8,9 +8,15 @@
 //! A grid stores its used rectangle densely, 16 bytes a cell: numbers carry
 //! no heap allocation, text is interned in a per-grid string table, and
 //! formulas live in a sparse side table, because most cells have none.
+//!
+//! Date arithmetic (civil dates, serials, ISO 8601 text) is in `dates`.
 
 use std::collections::BTreeMap;
 use std::fmt;
+
+pub(crate) mod dates;
+
+pub use dates::civil_from_unix;
 
 /// The largest row count of the open workbook formats (1,048,576 rows).
 pub const MAX_ROWS: u32 = 1 << 20;
@@ -117,6 +123,19 @@ impl CellRange {
     /// Number of columns.
     pub fn cols(&self) -> u32 {
         self.last_col - self.first_col + 1
+    }
+    /// The smallest rectangle holding `range` (if any) and the cell
+    /// `(row, col)`.
+    pub fn enclosing(range: Option<CellRange>, row: u32, col: u32) -> CellRange {
+        match range {
+            None => CellRange { first_row: row, first_col: col, last_row: row, last_col: col },
+            Some(r) => CellRange {
+                first_row: r.first_row.min(row),
+                first_col: r.first_col.min(col),
+                last_row: r.last_row.max(row),
+                last_col: r.last_col.max(col),
+            },
+        }
     }
     /// Whether the cell lies inside.
     pub fn contains(&self, row: u32, col: u32) -> bool {
@@ -410,23 +429,6 @@ impl Grid {
             (!matches!(s, Stored::Empty) || self.formulas.contains_key(&(r, c))).then(|| (r, c, self.value(r, c)))
         })
     }
-}
-
-/// Unix seconds (UTC) to the civil date and time (year, month, day, hour,
-/// minute, second), by Hinnant's `civil_from_days` ("chrono-Compatible
-/// Low-Level Date Algorithms", 2013).
-pub fn civil_from_unix(unix: i64) -> (i64, u32, u32, u32, u32, u32) {
-    let z = unix.div_euclid(86_400) + 719_468;
-    let secs = unix.rem_euclid(86_400) as u32;
-    let era = z.div_euclid(146_097);
-    let doe = z.rem_euclid(146_097);
-    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
-    let y = yoe + era * 400;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = (doy - (153 * mp + 2) / 5 + 1) as u32;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32;
-    (if m <= 2 { y + 1 } else { y }, m, d, secs / 3600, secs / 60 % 60, secs % 60)
 }
 
 /// A whole workbook: its sheets in order.

@@ -1,6 +1,7 @@
 //! Helpers shared by the integration tests.
 #![allow(dead_code)]
 
+pub mod dump;
 pub mod faithful;
 pub mod nist;
 pub mod output;
