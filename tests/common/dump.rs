@@ -15,7 +15,8 @@ use std::path::{Path, PathBuf};
 
 use plumb::cells::{column_letters, CellAddress, Workbook};
 use plumb::fits::Registry;
-use plumb::layout::{lay_out, Book, Cached, ChartSpec, Content, OutCell, Overlay, RunInfo, Sheet};
+use plumb::layout::{lay_out, Book, Cached, ChartSpec, Content, OutCell, Overlay, Sheet};
+use plumb::report::RunInfo;
 use plumb::pipeline::evaluate_book;
 
 /// The run facts used for every snapshot: constants, so the About sheet
