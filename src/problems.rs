@@ -37,8 +37,9 @@ pub struct Problem {
     pub file: Option<String>,
     /// The cell at fault (usually the request cell).
     pub cell: Option<CellAddress>,
-    /// The request text and the byte span at fault within it.
-    pub source: Option<(String, usize, usize)>,
+    /// The request text and the byte span at fault within it (boxed: it
+    /// keeps a `Problem`, the error type of every stage, small).
+    pub source: Option<Box<(String, usize, usize)>>,
     /// What happened, in the user's terms.
     pub message: String,
     /// What would fix it.
@@ -64,7 +65,7 @@ impl Problem {
 
     /// Adds the request text and the byte span at fault.
     pub fn in_text(mut self, text: &str, start: usize, end: usize) -> Self {
-        self.source = Some((text.to_string(), start, end));
+        self.source = Some(Box::new((text.to_string(), start, end)));
         self
     }
 
@@ -91,7 +92,7 @@ impl Problem {
     /// The request text and a caret line under the span, both indented by
     /// four spaces; empty when the problem has no source text.
     pub fn caret_lines(&self) -> String {
-        let Some((text, start, end)) = &self.source else { return String::new() };
+        let Some((text, start, end)) = self.source.as_deref() else { return String::new() };
         caret_lines(text, *start, *end)
     }
 }

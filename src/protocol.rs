@@ -710,7 +710,7 @@ impl FitOutcome {
             }
         }
         if let Some(l) = &self.likelihood {
-            if !l.log_likelihood.is_finite() || !l.parameters.is_finite() || !(l.observations > 0.0) {
+            if !l.log_likelihood.is_finite() || !l.parameters.is_finite() || l.observations.is_nan() || l.observations <= 0.0 {
                 return Err("the log-likelihood, its parameter count or its observation count is not a finite number".into());
             }
         }
@@ -1089,7 +1089,8 @@ mod tests {
     #[test]
     fn check_shape_refuses_each_fault_it_promises_to_find() {
         let req = request();
-        let cases: Vec<(&str, Box<dyn Fn(&mut FitOutcome)>)> = vec![
+        type Spoil = Box<dyn Fn(&mut FitOutcome)>;
+        let cases: Vec<(&str, Spoil)> = vec![
             ("no coefficients", Box::new(|o| o.coefficients.clear())),
             ("estimate that is not a finite", Box::new(|o| o.coefficients[0].estimate = Some(f64::NAN))),
             ("standard error that is not a finite", Box::new(|o| o.coefficients[1].std_error = Some(f64::INFINITY))),
@@ -1097,8 +1098,12 @@ mod tests {
             ("statistic 'n' is infinite", Box::new(|o| o.statistics[0].value = f64::INFINITY)),
             ("2 values for 3 rows", Box::new(|o| o.rows[0].values.pop().map(drop).unwrap_or(()))),
             ("infinite value", Box::new(|o| o.rows[0].values[0] = f64::NEG_INFINITY)),
-            ("names row 3 of 3", Box::new(|o| drop(o.statistic_rows.insert("n".into(), 3)))),
-            ("does not have", Box::new(|o| drop(o.statistic_rows.insert("missing".into(), 0)))),
+            ("names row 3 of 3", Box::new(|o| {
+                o.statistic_rows.insert("n".into(), 3);
+            })),
+            ("does not have", Box::new(|o| {
+                o.statistic_rows.insert("missing".into(), 0);
+            })),
             ("a warning names row 9", Box::new(|o| o.row_warnings.push(RowWarning { row: 9, text: "{row}".into() }))),
             ("not 2 × 2", Box::new(|o| o.predictor.as_mut().unwrap().covariance.pop().map(drop).unwrap_or(()))),
             ("not a finite number", Box::new(|o| o.predictor.as_mut().unwrap().covariance[0][1] = f64::NAN)),
