@@ -76,17 +76,19 @@ fn looks_like_cell(s: &str) -> bool {
     (1..=3).contains(&letters) && !rest.is_empty() && rest.chars().all(|c| c.is_ascii_digit())
 }
 
-/// Column letters of a zero-based column: 0 → `A`, 25 → `Z`, 26 → `AA`.
+/// Column letters of a zero-based column: 0 → `A`, 25 → `Z`, 26 → `AA`,
+/// 16383 → `XFD`. Counted in `u64`, so every `u32` has letters.
 pub fn column_letters(col: u32) -> String {
-    let mut n = col + 1;
+    let mut n = u64::from(col) + 1;
     let mut out = Vec::new();
     while n > 0 {
-        let r = ((n - 1) % 26) as u8;
-        out.push(b'A' + r);
-        n = (n - 1) / 26;
+        n -= 1;
+        // n % 26 < 26, so the sum is an ASCII capital letter.
+        out.push(b'A' + (n % 26) as u8);
+        n /= 26;
     }
     out.reverse();
-    String::from_utf8(out).unwrap_or_default()
+    out.into_iter().map(char::from).collect()
 }
 
 /// Zero-based column of column letters (`A` → 0, `xfd` → 16383); `None` when
@@ -456,6 +458,10 @@ mod tests {
             assert_eq!(column_letters(i), s);
             assert_eq!(column_index(s), Some(i));
         }
+        // Past the last column the letters go on, with no overflow at u32::MAX:
+        // 26 + 26² + … + 26⁶ = 321,272,406 columns have at most six letters,
+        // fewer than 2³² − 1 < 26 + … + 26⁷ (arithmetic), so it has seven.
+        assert_eq!(column_letters(u32::MAX).len(), 7);
         assert_eq!(column_index("XFE"), None);
         assert_eq!(column_index("A1"), None);
     }

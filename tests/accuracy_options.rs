@@ -11,7 +11,8 @@ use plumb::cells::{Grid, Workbook};
 use plumb::fits::Registry;
 use plumb::report::Status;
 use plumb::numeric::t_sf;
-use plumb::pipeline::{evaluate_book, run, RunConfig};
+use common::run::run_to;
+use plumb::pipeline::evaluate_book;
 
 /// Sheet "Bays": Light (B), Yield (C), Beds (D, the weights) and the
 /// request in F2. `beds` gives each row's weight cell.
@@ -113,14 +114,13 @@ fn a_tiny_p_value_is_written_as_such_not_zero() {
     // 62 rows on a line with noise of 1e-3: t ≈ 1.4e5 on 60 df, a two-sided
     // p-value near 1e-256. It must reach the workbook as a positive number
     // equal to 2·P(T > |t|) (survival function, common practice), not 0.
-    let dir = std::env::temp_dir().join(format!("plumb-tiny-p-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = common::run::scratch("tiny-p");
     let input = dir.join("tiny.xlsx");
     let x: Vec<Option<f64>> = (1..=62).map(|i| Some(i as f64)).collect();
     let y: Vec<Option<f64>> = (1..=62).map(|i| Some(i as f64 + if i % 2 == 0 { 1e-3 } else { -1e-3 })).collect();
     common::workbooks::write_table(&input, "Data", &["x", "y"], &[x, y], &[(0, 4, "#linear(y, x, name=tiny)")]);
     let out = dir.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).expect("run");
+    let s = run_to(&input, &out);
     assert!(!s.any_failed(), "{:?}", s.problems);
     let c = &output::coefficients(&out, "tiny")[1];
     let (t, p) = (c.t.expect("t written"), c.p.expect("p written"));

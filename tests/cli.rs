@@ -3,19 +3,13 @@
 
 mod common;
 
+use common::run::{plumb, scratch};
 use common::workbooks;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn plumb(args: &[&str], dir: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_plumb")).args(args).current_dir(dir).env("SOURCE_DATE_EPOCH", "1767225600").output().expect("run plumb")
-}
+use std::process::Output;
 
 fn dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("plumb-cli-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+    scratch(&format!("cli-{name}"))
 }
 
 fn small_book(path: &Path, requests: &[(u32, u32, &str)]) {

@@ -13,11 +13,10 @@
 
 mod common;
 
-use common::workbooks::{compound_file, minimal_ods, minimal_xlsx, stored_zip};
-use rust_xlsxwriter::{DocProperties, ExcelDateTime, Format, Formula, Workbook};
+use common::run::{files_in, plumb, scratch};
+use common::workbooks::{compound_file, minimal_ods, minimal_xlsx, pinned_workbook, stored_zip};
+use rust_xlsxwriter::{ExcelDateTime, Format, Formula};
 use sha2::{Digest, Sha256};
-use std::path::{Path, PathBuf};
-use std::process::Command;
 
 /// A cell to write.
 #[derive(Clone)]
@@ -46,8 +45,7 @@ fn sheet(name: &str, cells: Vec<(u32, u32, C)>) -> S {
 
 /// An xlsx of the given sheets, creation time pinned.
 fn xlsx(sheets: &[S]) -> Vec<u8> {
-    let mut wb = Workbook::new();
-    wb.set_properties(&DocProperties::new().set_creation_datetime(&ExcelDateTime::from_ymd(2026, 1, 1).unwrap()));
+    let mut wb = pinned_workbook();
     let date = Format::new().set_num_format("yyyy-mm-dd");
     for s in sheets {
         let ws = wb.add_worksheet();
@@ -281,33 +279,16 @@ fn sha(bytes: &[u8]) -> String {
     Sha256::digest(bytes).iter().map(|b| format!("{b:02x}")).collect()
 }
 
-fn files_in(d: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(d).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
-    v.sort();
-    v
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("plumb-corpus-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
 
 /// Runs one case; returns a description of every broken expectation.
 fn check(c: &Case) -> Vec<String> {
     let mut bad = Vec::new();
-    let d = scratch(c.name);
+    let d = scratch(&format!("corpus-{}", c.name));
     let file = format!("{}.{}", c.name, c.ext);
     let input = d.join(&file);
     std::fs::write(&input, &c.bytes).unwrap();
     let before = sha(&c.bytes);
-    let o = Command::new(env!("CARGO_BIN_EXE_plumb"))
-        .args(["run", &file])
-        .current_dir(&d)
-        .env("SOURCE_DATE_EPOCH", "1767225600")
-        .output()
-        .expect("run plumb");
+    let o = plumb(&["run", &file], &d);
     let err = String::from_utf8_lossy(&o.stderr).into_owned();
     let out = String::from_utf8_lossy(&o.stdout).into_owned();
     let short = |s: &str| s.chars().take(1500).collect::<String>();

@@ -10,29 +10,19 @@
 mod common;
 
 use plumb::cells::{Value, Workbook};
-use plumb::fits::Registry;
-use plumb::pipeline::{run, RunConfig};
+use common::run::{run_to, scratch};
 use plumb::read::read_workbook;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 fn assert_faithful(input: &Path, out: &Path) {
     let n = common::faithful::assert_faithful(input, out);
     assert!(n > 0, "cells were compared");
 }
 
-fn run_to(input: &Path, out: &Path) -> plumb::pipeline::Summary {
-    run(&RunConfig { input: input.to_path_buf(), output: Some(out.to_path_buf()), created_unix: Some(0) }, &Registry::builtin()).expect("run")
-}
-
-fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("plumb-faithful-{}-{name}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
 
 #[test]
 fn every_value_kind_survives_the_copy() {
-    let d = tmp("kinds");
+    let d = scratch("faithful-kinds");
     let input = d.join("kinds.xlsx");
     common::workbooks::every_kind_workbook(&input);
     let out = d.join("out.xlsx");
@@ -44,7 +34,7 @@ fn every_value_kind_survives_the_copy() {
 #[test]
 fn the_demo_survives_the_copy_and_shows_its_typo() {
     let input = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx");
-    let d = tmp("demo");
+    let d = scratch("faithful-demo");
     let out = d.join("greenhouse.fitted.xlsx");
     let s = run_to(&input, &out);
     assert_faithful(&input, &out);

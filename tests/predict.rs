@@ -6,33 +6,19 @@
 
 mod common;
 
+// `close` allows an absolute difference where the figure is 0 (the middle
+// normal quantile of the charts).
+use common::data::{close, stackloss};
 use common::output::{self, num, text};
-use plumb::fits::Registry;
+use common::run::{run_to, scratch};
+use common::workbooks::pinned_workbook;
 use plumb::report::Status;
-use plumb::pipeline::{run, RunConfig};
-use rust_xlsxwriter::{DocProperties, ExcelDateTime, Workbook};
 use serde_json::Value as Json;
 use std::io::Read;
 use std::path::{Path, PathBuf};
 
-fn close(got: f64, want: f64, what: &str) {
-    // Relative difference; an absolute one at zero (the middle normal quantile).
-    let rel = if want == 0.0 { got.abs() } else { ((got - want) / want).abs() };
-    assert!(rel < 5e-9, "{what}: got {got}, statsmodels 0.15.0 gives {want} (relative difference {rel:.1e})");
-}
-
 fn reference() -> Json {
     serde_json::from_str(include_str!("data/predict_figures.json")).expect("tests/data/predict_figures.json is JSON")
-}
-
-fn stackloss() -> Vec<Vec<f64>> {
-    let mut cols = vec![Vec::new(); 4];
-    for line in include_str!("data/stackloss.csv").lines().skip(1).filter(|l| !l.trim().is_empty()) {
-        for (i, v) in line.split(',').enumerate() {
-            cols[i].push(v.trim().parse::<f64>().expect("stackloss.csv holds numbers"));
-        }
-    }
-    cols
 }
 
 const HEADERS: [&str; 4] = ["STACKLOSS", "AIRFLOW", "WATERTEMP", "ACIDCONC"];
@@ -41,8 +27,7 @@ const HEADERS: [&str; 4] = ["STACKLOSS", "AIRFLOW", "WATERTEMP", "ACIDCONC"];
 /// the reference points on sheet Plan.
 fn book(dir: &Path, requests: &[&str]) -> PathBuf {
     let path = dir.join("stackloss.xlsx");
-    let mut wb = Workbook::new();
-    wb.set_properties(&DocProperties::new().set_creation_datetime(&ExcelDateTime::from_ymd(2026, 1, 1).unwrap()));
+    let mut wb = pinned_workbook();
     let ws = wb.add_worksheet();
     ws.set_name("Plant").unwrap();
     for (j, (h, col)) in HEADERS.iter().zip(stackloss()).enumerate() {
@@ -75,13 +60,6 @@ fn book(dir: &Path, requests: &[&str]) -> PathBuf {
     path
 }
 
-fn tmp(tag: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("plumb-predict-{tag}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
 const REQUESTS: [&str; 7] = [
     "#linear(STACKLOSS, AIRFLOW + WATERTEMP + ACIDCONC, name=full)",
     "#linear(STACKLOSS, AIRFLOW, name=air)",
@@ -101,10 +79,10 @@ fn prediction_rows(t: &[Vec<calamine::Data>], request: &str) -> Vec<Vec<calamine
 
 #[test]
 fn predictions_and_intervals_match_statsmodels() {
-    let d = tmp("pi");
+    let d = scratch("predict-pi");
     let input = book(&d, &REQUESTS);
     let out = d.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     for r in &s.reports {
         assert_ne!(r.status, Status::Error, "{}: {:?}", r.text, r.messages);
     }
@@ -144,11 +122,11 @@ fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
     // becomes the model row (1, x, x²), so #predict and the calculator work.
     // Reference: statsmodels 0.15.0 OLS of STACKLOSS ~ AIRFLOW + I(AIRFLOW**2),
     // get_prediction(...).summary_frame() (tests/data/predict_figures.json).
-    let d = tmp("poly");
+    let d = scratch("predict-poly");
     let reqs = ["#polynomial(STACKLOSS, AIRFLOW, degree=2, name=q)", "#predict(q, rows=PolyPlan!A1:A5)", "#predict(q, rows=PolyPlan!A1:A5, level=0.90)", "#predict(q, AIRFLOW=62)"];
     let input = book(&d, &reqs);
     let out = d.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     for r in &s.reports {
         assert_ne!(r.status, Status::Error, "{}: {:?}", r.text, r.messages);
     }
@@ -185,10 +163,10 @@ fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
 
 #[test]
 fn compare_gives_the_nested_f_tests_of_statsmodels() {
-    let d = tmp("cmp");
+    let d = scratch("predict-cmp");
     let input = book(&d, &REQUESTS);
     let out = d.join("out.xlsx");
-    run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    run_to(&input, &out);
     let t = output::table(&out, "Comparisons");
     let refs = reference();
     // Fit table: AIC and BIC per fit (statsmodels 0.15.0).
@@ -232,7 +210,7 @@ fn compare_gives_the_nested_f_tests_of_statsmodels() {
 
 #[test]
 fn compare_refuses_other_responses_and_other_rows() {
-    let d = tmp("refuse");
+    let d = scratch("predict-refuse");
     let input = book(
         &d,
         &[
@@ -250,7 +228,7 @@ fn compare_refuses_other_responses_and_other_rows() {
         ],
     );
     let out = d.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     let msg = |i: usize| s.reports[i].messages.join(" ");
     assert_eq!(s.reports[2].status, Status::Error);
     assert!(msg(2).contains("different responses (STACKLOSS and AIRFLOW)"), "{}", msg(2));
@@ -304,10 +282,10 @@ fn parse_range(r: &str) -> (u32, u32, u32) {
 
 #[test]
 fn charts_read_the_cells_of_their_fits() {
-    let d = tmp("charts");
+    let d = scratch("predict-charts");
     let input = book(&d, &[REQUESTS[0], REQUESTS[1]]);
     let out = d.join("out.xlsx");
-    run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    run_to(&input, &out);
     let charts = chart_parts(&out);
     assert_eq!(charts.len(), 6, "three charts per fit");
     let t = output::table(&out, "Charts");
@@ -364,10 +342,9 @@ fn predicting_at_the_data_rows_gives_the_fitted_values() {
     // Powers, a transform, a text column and its product with a number:
     // the recipe must rebuild the model columns exactly as the resolver did,
     // so #predict at each data row equals that row's Fitted column (common practice: identity).
-    let d = tmp("recipe");
+    let d = scratch("predict-recipe");
     let path = d.join("mixed.xlsx");
-    let mut wb = Workbook::new();
-    wb.set_properties(&DocProperties::new().set_creation_datetime(&ExcelDateTime::from_ymd(2026, 1, 1).unwrap()));
+    let mut wb = pinned_workbook();
     let ws = wb.add_worksheet();
     ws.set_name("Data").unwrap();
     for (j, h) in ["y", "x", "z", "g"].iter().enumerate() {
@@ -388,7 +365,7 @@ fn predicting_at_the_data_rows_gives_the_fitted_values() {
     ws.write_string(2, 6, "#predict(m, rows=Data!A1:D31)").unwrap();
     wb.save(&path).unwrap();
     let out = d.join("out.xlsx");
-    let s = run(&RunConfig { input: path, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&path, &out);
     assert!(s.reports.iter().all(|r| r.status != Status::Error), "{:?}", s.problems);
     let t = output::table(&out, "Intervals");
     let rows = prediction_rows(&t, "#predict(m, rows=Data!A1:D31)");
@@ -408,9 +385,9 @@ fn predicting_at_the_data_rows_gives_the_fitted_values() {
 #[test]
 fn the_demo_calculator_offers_the_levels_and_caches_its_values() {
     let input = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx");
-    let d = tmp("demo");
+    let d = scratch("predict-demo");
     let out = d.join("greenhouse.fitted.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     // The Intervals sheet part holds a list validation of the bay levels.
     let names = output::sheet_names(&out);
     let idx = names.iter().position(|n| n == "Intervals").unwrap() + 1;

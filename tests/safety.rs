@@ -6,18 +6,12 @@
 
 mod common;
 
+use common::run::{files_in as files, plumb, plumb_exe, scratch, SOURCE_DATE_EPOCH};
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-fn plumb(args: &[&str], dir: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_plumb")).args(args).current_dir(dir).env("SOURCE_DATE_EPOCH", "1767225600").output().expect("run plumb")
-}
-
 fn dir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("plumb-safety-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+    scratch(&format!("safety-{name}"))
 }
 
 fn book(path: &Path, requests: &[(u32, u32, &str)]) {
@@ -26,11 +20,6 @@ fn book(path: &Path, requests: &[(u32, u32, &str)]) {
     common::workbooks::write_table(path, "Data", &["Light", "Yield"], &[x, y], requests);
 }
 
-fn files(d: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(d).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
-    v.sort();
-    v
-}
 
 #[cfg(unix)]
 #[test]
@@ -95,10 +84,10 @@ fn traced(args: &[&str], d: &Path) -> Option<(Output, String)> {
     let o = Command::new("strace")
         .args(["-f", "-qq", "-e", "trace=open,openat,openat2,creat,execve,execveat,vfork,fork,rename,renameat,renameat2,unlink,unlinkat", "-o"])
         .arg(&log)
-        .arg(env!("CARGO_BIN_EXE_plumb"))
+        .arg(plumb_exe())
         .args(args)
         .current_dir(d)
-        .env("SOURCE_DATE_EPOCH", "1767225600")
+        .env("SOURCE_DATE_EPOCH", SOURCE_DATE_EPOCH)
         .output()
         .ok()?;
     let trace = std::fs::read_to_string(&log).ok()?;

@@ -5,31 +5,14 @@
 
 mod common;
 
+use common::data::{close, stackloss};
+use common::run::{run_to, scratch};
 use common::{output, workbooks};
-use plumb::fits::Registry;
-use plumb::pipeline::{run, RunConfig};
-
-fn close(got: f64, want: f64, what: &str) {
-    let rel = ((got - want) / want).abs();
-    assert!(rel < 5e-9, "{what}: got {got}, statsmodels 0.15.0 gives {want} (relative difference {rel:.1e})");
-}
-
-fn stackloss() -> Vec<Vec<f64>> {
-    let text = include_str!("data/stackloss.csv");
-    let mut cols = vec![Vec::new(); 4];
-    for line in text.lines().skip(1).filter(|l| !l.trim().is_empty()) {
-        for (i, v) in line.split(',').enumerate() {
-            cols[i].push(v.trim().parse::<f64>().unwrap());
-        }
-    }
-    cols
-}
 
 #[test]
 fn stack_loss_matches_statsmodels_to_nine_digits() {
     let cols = stackloss();
-    let dir = std::env::temp_dir().join(format!("plumb-stackloss-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch("stackloss");
     let input = dir.join("stackloss.xlsx");
     let opt: Vec<Vec<Option<f64>>> = cols.iter().map(|c| c.iter().map(|v| Some(*v)).collect()).collect();
     workbooks::write_table(
@@ -40,7 +23,7 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
         &[(1, 6, "#linear(STACKLOSS, AIRFLOW + WATERTEMP + ACIDCONC, name=stack)")],
     );
     let out = dir.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     assert!(!s.any_failed(), "{:?}", s.problems);
     let coefs = output::coefficients(&out, "stack");
     // statsmodels 0.15.0, datasets/README.md table "Stack loss OLS figures".

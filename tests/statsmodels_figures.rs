@@ -13,9 +13,9 @@
 
 mod common;
 
+use common::data::{csv, relative_difference};
+use common::run::{run_to, scratch};
 use common::{output, workbooks};
-use plumb::fits::Registry;
-use plumb::pipeline::{run, RunConfig};
 use serde_json::Value;
 use std::path::Path;
 
@@ -27,9 +27,8 @@ thread_local! {
 }
 
 fn close(got: f64, want: f64, what: &str) {
-    let rel = ((got - want) / want).abs();
-    WORST.with(|w| w.set(w.get().max(rel)));
-    assert!(rel < 5e-9, "{what}: got {got}, statsmodels 0.15.0 gives {want} (relative difference {rel:.1e})");
+    WORST.with(|w| w.set(w.get().max(relative_difference(got, want))));
+    common::data::close(got, want, what);
 }
 
 /// Prints the largest relative difference of the test (see it with
@@ -44,19 +43,6 @@ fn reference() -> Value {
 
 fn floats(v: &Value) -> Vec<f64> {
     v.as_array().expect("an array").iter().map(|x| x.as_f64().expect("a number")).collect()
-}
-
-/// A CSV of numbers with a header line (quotes around names dropped).
-fn csv(text: &str) -> (Vec<String>, Vec<Vec<f64>>) {
-    let mut lines = text.lines().filter(|l| !l.trim().is_empty());
-    let header: Vec<String> = lines.next().expect("a header").split(',').map(|h| h.trim().trim_matches('"').to_string()).collect();
-    let mut cols = vec![Vec::new(); header.len()];
-    for line in lines {
-        for (i, v) in line.split(',').enumerate() {
-            cols[i].push(v.trim().parse::<f64>().expect("a number"));
-        }
-    }
-    (header, cols)
 }
 
 /// The values under the header `label (fit)` on a source sheet, top to
@@ -80,12 +66,11 @@ fn check_dataset(key: &str, csv_text: &str, response: &str, terms: &[&str]) {
         .chain(["hc0", "hc1", "hc2", "hc3"].iter().map(|k| format!("#linear({response}, {model}, errors={k}, name={k})")))
         .collect();
     let placed: Vec<(u32, u32, &str)> = reqs.iter().enumerate().map(|(i, r)| (i as u32 + 1, col, r.as_str())).collect();
-    let dir = std::env::temp_dir().join(format!("plumb-smfig-{key}-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch(&format!("smfig-{key}"));
     let input = dir.join("data.xlsx");
     workbooks::write_table(&input, "Data", &names, &data, &placed);
     let out = dir.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     assert!(!s.any_failed(), "{:?}", s.problems);
 
     // Per-row columns beside the data.
@@ -188,12 +173,11 @@ fn weighted_stack_loss_robust_errors_and_residual_checks_match_statsmodels() {
     let model = "#linear(STACKLOSS, AIRFLOW + WATERTEMP + ACIDCONC, weights=W";
     let reqs: Vec<String> = std::iter::once(format!("{model}, name=w)")).chain(["hc0", "hc1", "hc2", "hc3"].iter().map(|k| format!("{model}, errors={k}, name={k})"))).collect();
     let placed: Vec<(u32, u32, &str)> = reqs.iter().enumerate().map(|(i, r)| (i as u32 + 1, 6, r.as_str())).collect();
-    let dir = std::env::temp_dir().join(format!("plumb-smfig-weighted-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let dir = scratch("smfig-weighted");
     let input = dir.join("data.xlsx");
     workbooks::write_table(&input, "Data", &["STACKLOSS", "AIRFLOW", "WATERTEMP", "ACIDCONC", "W"], &data, &placed);
     let out = dir.join("out.xlsx");
-    let s = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin()).unwrap();
+    let s = run_to(&input, &out);
     assert!(!s.any_failed(), "{:?}", s.problems);
     for (fit, field) in [("w", "std_errors_classic"), ("hc0", "std_errors_hc0"), ("hc1", "std_errors_hc1"), ("hc2", "std_errors_hc2"), ("hc3", "std_errors_hc3")] {
         let se = floats(&want[field]);

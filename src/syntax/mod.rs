@@ -122,7 +122,10 @@ mod tests;
 use std::fmt;
 
 pub use self::parser::{looks_like_request, parse_request};
-pub use self::print::{column_letters, expr_to_sexpr, to_sexpr};
+// Column letters are those of the cell model, re-exported because printed
+// requests spell ranges with them.
+pub use crate::cells::column_letters;
+pub use self::print::{expr_to_sexpr, to_sexpr};
 
 /// The longest request text accepted, in bytes. A longer request is a
 /// [`SyntaxError`] that states this limit.

@@ -5,25 +5,12 @@
 use std::fmt::{self, Write as _};
 
 use super::lexer::is_identifier;
+use crate::cells::column_letters;
 use super::parser::{precedence, Assoc, PREFIX_NEG_PRECEDENCE};
 use super::{Arg, CellRefPart, Expr, ExprKind, RangeRef, Request, UnaryOp};
 
 /// The precedence of an atom (name, number, call, parentheses …).
 const ATOM_PRECEDENCE: u8 = 5;
-
-/// The column letters of a zero-based column: 0 is `A`, 26 is `AA`, 16383 is `XFD`.
-pub fn column_letters(col: u32) -> String {
-    let mut n = u64::from(col) + 1;
-    let mut out = Vec::new();
-    while n > 0 {
-        n -= 1;
-        // n % 26 < 26, so the sum is an ASCII capital letter.
-        out.push(b'A' + (n % 26) as u8);
-        n /= 26;
-    }
-    out.reverse();
-    out.into_iter().map(char::from).collect()
-}
 
 /// A number as the shortest decimal text that reads back to the same value:
 /// `14`, `0.2`, `0.001`, `1e300`, `1e-7`.

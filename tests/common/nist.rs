@@ -352,11 +352,8 @@ pub const TABLE_HEADER: &str = "| dataset   | coef  | SD    | res.SD | R²    | 
 /// The request must name its fit `nist`. `None` when the reference data is
 /// absent (after a notice).
 pub fn through_tool(name: &str, request: &str) -> Option<Lres> {
-    use plumb::fits::Registry;
-    use plumb::pipeline::{run, RunConfig};
     let d = load_linear(name)?;
-    let dir = std::env::temp_dir().join(format!("plumb-nist-{}-{name}-{}", std::process::id(), request.len()));
-    std::fs::create_dir_all(&dir).unwrap_or_else(|e| panic!("cannot create {}: {e}", dir.display()));
+    let dir = super::run::scratch(&format!("nist-{name}-{}", request.len()));
     let input = dir.join(format!("{name}.xlsx"));
     let mut headers = vec!["y".to_string()];
     let mut cols = vec![d.y.iter().map(|v| Some(*v)).collect::<Vec<_>>()];
@@ -368,8 +365,7 @@ pub fn through_tool(name: &str, request: &str) -> Option<Lres> {
     let req_col = headers.len() as u32 + 2;
     super::workbooks::write_table(&input, "Data", &h, &cols, &[(0, req_col, request)]);
     let out = dir.join("out.xlsx");
-    let summary = run(&RunConfig { input, output: Some(out.clone()), created_unix: Some(0) }, &Registry::builtin())
-        .unwrap_or_else(|e| panic!("{name}: run failed: {e}"));
+    let summary = super::run::run_to(&input, &out);
     assert!(!summary.any_failed(), "{name}: {:?}", summary.problems);
     let coefs = super::output::coefficients(&out, "nist");
     assert_eq!(coefs.len(), d.coefficients.len(), "{name}: {coefs:?}");

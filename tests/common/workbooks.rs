@@ -337,7 +337,7 @@ fn write_sheet(ws: &mut Worksheet, spec: &SheetSpec) {
 
 /// A workbook whose creation time is pinned (2026-01-01), so its bytes do not
 /// depend on when it was written.
-fn pinned_workbook() -> Workbook {
+pub fn pinned_workbook() -> Workbook {
     let mut wb = Workbook::new();
     let created = ExcelDateTime::from_ymd(2026, 1, 1).expect("valid date");
     wb.set_properties(&DocProperties::new().set_creation_datetime(&created));
