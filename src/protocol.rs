@@ -282,6 +282,9 @@ pub struct Coefficient {
 }
 
 /// How a statistic's value is shown.
+///
+/// Example: a count of rows is `{"key":"n","label":"Rows used","group":"How
+/// closely it fits","format":"integer","value":102.0}`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum NumberFormat {
@@ -330,6 +333,8 @@ impl Statistic {
 /// charts, [`RowRole::StandardizedResidual`] the normal quantile plot, and
 /// [`RowRole::Leverage`] tells `#predict` which new points lie outside the
 /// data.
+///
+/// Example JSON: `"fitted"`, `"cooks_distance"`, `{"other":"dfbeta_Light"}`.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RowRole {
@@ -394,6 +399,9 @@ impl RowColumn {
 }
 
 /// How a fit's linear predictor becomes the response's scale.
+///
+/// Example: a yes/no fit sends `"link":"logit"`, and `#predict` then shows
+/// probabilities with their interval's ends mapped through `1/(1+e^(−η))`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Link {
@@ -478,6 +486,9 @@ pub struct Predictor {
 /// A fit's log-likelihood, for AIC, BIC and likelihood-ratio tests:
 /// `AIC = 2k − 2ℓ`, `BIC = k·ln(n) − 2ℓ` (Akaike 1974; Schwarz 1978), with
 /// `k` = [`Likelihood::parameters`] and `n` = [`Likelihood::observations`].
+///
+/// Example JSON: `{"log_likelihood":-104.2,"parameters":4.0,"observations":100.0}`
+/// gives AIC = 216.4.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Likelihood {
@@ -502,6 +513,8 @@ impl Likelihood {
 
 /// The sums of squares of a least-squares fit, for nested F tests and for
 /// comparing fits.
+///
+/// Example JSON: `{"ss_resid":41.2,"df_resid":97.0,"r_squared":0.71,"adj_r_squared":0.70}`.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct LeastSquares {
@@ -850,7 +863,7 @@ impl Function {
 /// as `{"mul":[{"parameter":0},{"column":1}]}`.
 ///
 /// A fit uses it to say how a new row of inputs becomes its model row
-/// ([`Predictor::model_row`]: `Light^2` is `{"pow":[{"column":0},{"number":2.0}]}`)
+/// ([`PredictorForm::Linear`]: `Light^2` is `{"pow":[{"column":0},{"number":2.0}]}`)
 /// and, for a model nonlinear in its parameters, what the model is
 /// ([`PredictorForm::Model`]).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

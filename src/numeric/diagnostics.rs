@@ -324,7 +324,7 @@ impl ErrorKind {
 ///   305–325), `hᵢ` the leverage and `k` the rank.
 ///
 /// Computed through a Householder QR of the kept columns of `W^½X` (each
-/// scaled to unit length; [`PivotedQr`] in the given order): with thin `Q`
+/// scaled to unit length; `PivotedQr` in the given order): with thin `Q`
 /// and `R`, `V = R⁻¹ (Qᵀ Ω Q) R⁻ᵀ`, unscaled afterwards. This avoids the
 /// normal equations, so the error grows like the scaled condition number,
 /// not its square. `ErrorKind::Classic` returns the fit's own covariance.

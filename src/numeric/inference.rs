@@ -324,7 +324,7 @@ fn positive_quantile(p: f64, cdf: impl Fn(f64) -> f64, sf: impl Fn(f64) -> f64) 
 }
 
 /// Quantile `x` with `P(F ≤ x) = p` of the F distribution on (`d1`, `d2`)
-/// degrees of freedom (see [`positive_quantile`] for the method); NaN for
+/// degrees of freedom (see `positive_quantile` for the method); NaN for
 /// invalid arguments.
 pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
     if !(d1 > 0.0 && d1.is_finite() && d2 > 0.0 && d2.is_finite()) {
@@ -334,7 +334,7 @@ pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
 }
 
 /// Quantile `x` with `P(X ≤ x) = p` of chi-squared with `k` degrees of
-/// freedom (see [`positive_quantile`]); NaN for invalid arguments.
+/// freedom (see `positive_quantile`); NaN for invalid arguments.
 pub fn chi2_quantile(p: f64, k: f64) -> f64 {
     if !(k > 0.0 && k.is_finite()) {
         return f64::NAN;
