@@ -340,8 +340,14 @@ fn evaluate_one(
         };
         outcome.warnings.push(w.text.replace("{row}", &place));
     }
+    // Warnings about one term come first, with a caret under the term.
+    let term_warnings = std::mem::take(&mut outcome.term_warnings);
+    outcome.warnings.splice(0..0, term_warnings.iter().map(|w| w.text.clone()));
     let mut problems = resolved.warnings.clone();
-    for w in &outcome.warnings {
+    for w in &term_warnings {
+        problems.push(Problem::warning(w.text.clone()).at(f.cell.clone()));
+    }
+    for w in outcome.warnings.iter().skip(term_warnings.len()) {
         problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
     }
     report.messages = problems.iter().map(|p| p.one_line()).collect();

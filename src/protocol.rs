@@ -567,6 +567,11 @@ pub struct FitOutcome {
     /// place ("row 57 of Weekly") and adds the result to the warnings.
     #[serde(default)]
     pub row_warnings: Vec<RowWarning>,
+    /// Warnings about one term or column of the request, named by its label
+    /// ([`Column::term`] or [`Column::name`]): the host shows them with a
+    /// caret under that term in the request text.
+    #[serde(default)]
+    pub term_warnings: Vec<TermWarning>,
     /// Predictions at new points, when the fit offers them.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub predictor: Option<Predictor>,
@@ -619,6 +624,16 @@ impl std::fmt::Display for FitError {
 }
 
 impl std::error::Error for FitError {}
+
+/// A warning about one term or column of the request.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TermWarning {
+    /// The term's or column's label, as sent.
+    pub term: String,
+    /// The warning.
+    pub text: String,
+}
 
 /// A warning about one row of the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -685,6 +700,11 @@ impl FitOutcome {
             }
             if !self.statistics.iter().any(|s| &s.key == key) {
                 return Err(format!("a row is given for the statistic '{key}', which the outcome does not have"));
+            }
+        }
+        for w in &self.term_warnings {
+            if !request.columns.iter().any(|c| c.name == w.term || c.term == w.term) {
+                return Err(format!("a warning names the term '{}', which the request does not have", w.term));
             }
         }
         for w in &self.row_warnings {
@@ -1118,6 +1138,7 @@ mod tests {
                 o.statistic_rows.insert("missing".into(), 0);
             })),
             ("a warning names row 9", Box::new(|o| o.row_warnings.push(RowWarning { row: 9, text: "{row}".into() }))),
+            ("the term 'CO2'", Box::new(|o| o.term_warnings.push(TermWarning { term: "CO2".into(), text: "collinear".into() }))),
             ("not 2 × 2", Box::new(|o| o.predictor.as_mut().unwrap().covariance.pop().map(drop).unwrap_or(()))),
             ("not a finite number", Box::new(|o| o.predictor.as_mut().unwrap().covariance[0][1] = f64::NAN)),
             ("3 formulas for 2", Box::new(|o| {

@@ -9,7 +9,7 @@ use crate::numeric::diagnostics::{self as diag, ErrorKind};
 use crate::numeric::{self, LsProblem};
 use crate::protocol::{
     Coefficient, FitOutcome, FitRequest, Formula, FunctionSpec, LeastSquares, Likelihood, Link, NumberFormat, OptionValue, ParamKind, ParamSpec, Predictor, PredictorForm, RowColumn, RowRole,
-    RowWarning, Statistic,
+    RowWarning, Statistic, TermWarning,
 };
 
 /// The label of the intercept term.
@@ -195,10 +195,10 @@ impl Fit for Linear {
             if fit.aliased[j] {
                 let combo: Vec<String> = fit.alias_of[j].iter().map(|(k, _)| labels[*k].clone()).collect();
                 let with = if combo.is_empty() { "the other terms".to_string() } else { combo.join(", ") };
-                out.warnings.push(format!(
-                    "the term {} is an exact combination of {} (collinear), so its coefficient cannot be estimated; drop one of them",
-                    labels[j], with
-                ));
+                out.term_warnings.push(TermWarning {
+                    term: labels[j].clone(),
+                    text: format!("the term {} is an exact combination of {} (collinear), so its coefficient cannot be estimated; drop one of them", labels[j], with),
+                });
             }
         }
         let g = "Goodness of fit";

@@ -101,6 +101,10 @@ impl Fit for Polynomial {
         options.remove("degree");
         let linear_req = FitRequest { function: "linear".into(), columns, options, ..req.clone() };
         let mut out = self.linear.fit(&linear_req)?;
+        // Warnings about a power belong to the one column sent, x.
+        for w in &mut out.term_warnings {
+            w.term = base.term.clone();
+        }
         // The linear fit's model row names the powers it was sent; a new
         // point gives only x, so the row is 1, x, x², … of request column 0.
         if let Some(pr) = &mut out.predictor {
