@@ -257,7 +257,7 @@ impl FitRequest {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Coefficient {
-    /// Term label (`(intercept)`, `Light`, `Bay=North`).
+    /// Term label (`Intercept`, `Light`, `Bay: North vs East`).
     pub term: String,
     /// Estimate; `None` when the term is aliased (not estimable).
     pub estimate: Option<f64>,
@@ -279,6 +279,10 @@ pub struct Coefficient {
     /// intercept and aliased terms.
     #[serde(default)]
     pub standardized: Option<f64>,
+    /// Why a figure of this row is left blank (`None` when none is, or
+    /// when the term is aliased, which the host says itself).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub remark: Option<String>,
 }
 
 /// How a statistic's value is shown.
@@ -295,7 +299,23 @@ pub enum NumberFormat {
     Integer,
     /// A p-value: four decimals, or scientific below 0.0001.
     PValue,
+    /// A figure shown to this many decimals (the cell keeps every digit),
+    /// for figures on a known scale such as R² or Durbin–Watson. JSON:
+    /// `{"decimals":3}`.
+    Decimals(u8),
 }
+
+/// The Diagnostics group whose statistics form the analysis-of-variance
+/// grid rather than a list: a fit that sends statistics in this group with
+/// the keys of [`ANOVA_KEYS`] gets the grid (source × degrees of freedom,
+/// sum of squares, mean square, F, p-value).
+pub const ANOVA_GROUP: &str = "Analysis of variance";
+
+/// The keys of the analysis-of-variance grid, row by row (terms, residual,
+/// total), column by column (degrees of freedom, sum of squares, mean
+/// square, F, p-value); an empty key is a cell left blank.
+pub const ANOVA_KEYS: [[&str; 5]; 3] =
+    [["df_model", "ss_model", "ms_model", "anova_f", "anova_f_p_value"], ["df_resid", "ss_resid", "ms_resid", "", ""], ["df_total", "ss_total", "", "", ""]];
 
 /// A named statistic of a fit.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -314,12 +334,21 @@ pub struct Statistic {
     /// The value; NaN (sent as `null`) when undefined.
     #[serde(with = "nan_as_null")]
     pub value: f64,
+    /// What the value is about, when that differs between fits (the term
+    /// with the largest variance inflation factor): shown under the value.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub detail: Option<String>,
 }
 
 impl Statistic {
     /// A statistic shown as a decimal figure.
     pub fn new(key: &str, label: &str, group: &str, value: f64) -> Self {
-        Statistic { key: key.into(), label: label.into(), group: group.into(), format: NumberFormat::Decimal, value }
+        Statistic { key: key.into(), label: label.into(), group: group.into(), format: NumberFormat::Decimal, value, detail: None }
+    }
+    /// The same with what the value is about.
+    pub fn detail(mut self, detail: impl Into<String>) -> Self {
+        self.detail = Some(detail.into());
+        self
     }
     /// The same with another number format.
     pub fn format(mut self, format: NumberFormat) -> Self {
@@ -366,8 +395,8 @@ impl RowRole {
         match self {
             RowRole::Fitted => "Fitted",
             RowRole::Residual => "Residual",
-            RowRole::StandardizedResidual => "Standardized residual",
-            RowRole::StudentizedResidual => "Studentized residual",
+            RowRole::StandardizedResidual => "Internally studentized residual",
+            RowRole::StudentizedResidual => "Externally studentized residual",
             RowRole::Leverage => "Leverage",
             RowRole::CooksDistance => "Cook's distance",
             RowRole::Dffits => "DFFITS",
@@ -1060,7 +1089,7 @@ mod tests {
     /// A well-formed outcome for [`request`] (invented figures: only its
     /// shape is checked).
     fn outcome() -> FitOutcome {
-        let c = |term: &str, e: f64| Coefficient { term: term.into(), estimate: Some(e), std_error: Some(0.5), statistic: Some(e / 0.5), p_value: Some(0.2), lower: Some(e - 1.0), upper: Some(e + 1.0), vif: None, standardized: None };
+        let c = |term: &str, e: f64| Coefficient { term: term.into(), estimate: Some(e), std_error: Some(0.5), statistic: Some(e / 0.5), p_value: Some(0.2), lower: Some(e - 1.0), upper: Some(e + 1.0), vif: None, standardized: None, remark: None };
         FitOutcome {
             coefficients: vec![c("(intercept)", -1.0), c("Light", 1.5)],
             statistics: vec![Statistic::new("n", "Rows used", "Fit", 3.0).format(NumberFormat::Integer), Statistic::new("r2", "R²", "Fit", f64::NAN)],

@@ -46,7 +46,7 @@ pub struct ComparedFit {
     pub r_squared: f64,
     /// Adjusted R².
     pub adj_r_squared: f64,
-    /// Root mean squared error.
+    /// Residual standard error √(SSE/(n − p)).
     pub rmse: f64,
     /// AIC.
     pub aic: f64,

@@ -87,6 +87,8 @@ impl Formats {
             (Style::PValue, Some(x)) if x < 1e-4 => "0.00E+00".into(),
             (Style::PValue, _) => "0.0000".into(),
             (Style::Integer, _) => "0".into(),
+            (Style::Fixed(d), _) => if d == 0 { "0".into() } else { format!("0.{}", "0".repeat(usize::from(d))) },
+            (Style::Percent, _) => "0%".into(),
             (Style::Date, _) => "yyyy-mm-dd".into(),
             (Style::DateTime, _) => "yyyy-mm-dd hh:mm:ss".into(),
             (Style::Time, _) => "[h]:mm:ss".into(),

@@ -23,7 +23,7 @@ from xml.sax.saxutils import escape
 
 import openpyxl
 
-RESULTS = ["Predicted value", "Mean: lower bound", "Mean: upper bound", "New observation: lower bound", "New observation: upper bound"]
+RESULTS = ["Predicted value", "Confidence interval: from", "Confidence interval: to", "Prediction interval: from", "Prediction interval: to"]
 
 PROFILE = """<?xml version="1.0" encoding="UTF-8"?>
 <oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
@@ -56,8 +56,7 @@ def find_checks(ws):
             first = [c.value for c in rows[i + 3]]
             k = head.index("Predicted value")
             point = dict(zip(head[:k], first[:k]))
-            want = {"Predicted value": first[k], "Mean: lower bound": first[k + 2], "Mean: upper bound": first[k + 3],
-                    "New observation: lower bound": first[k + 4], "New observation: upper bound": first[k + 5]}
+            want = dict(zip(RESULTS, first[k:k + 5]))
             tables.setdefault(fit, (point, level, want))
     checks = []
     for i, r in enumerate(rows):

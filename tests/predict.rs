@@ -96,18 +96,18 @@ fn predictions_and_intervals_match_statsmodels() {
         let want: Vec<&Json> = refs["predictions"].as_array().unwrap().iter().filter(|p| p["level"].as_f64() == Some(level)).collect();
         assert_eq!(rows.len(), want.len());
         for (row, w) in rows.iter().zip(want) {
-            // Columns: 3 inputs, predicted, se of the mean, mean bounds, new-observation bounds.
+            // Columns: 3 inputs, predicted, confidence interval, prediction interval, standard error of the fitted value.
             for (j, h) in HEADERS[1..].iter().enumerate() {
                 assert_eq!(num(&row[j]), w["point"][*h].as_f64());
             }
             let f = |c: usize| num(&row[c]).unwrap_or_else(|| panic!("no number in column {c}"));
             let what = format!("level {level} at {}", w["point"]);
             close(f(3), w["mean"].as_f64().unwrap(), &format!("{what}: predicted"));
-            close(f(4), w["mean_se"].as_f64().unwrap(), &format!("{what}: se of the mean"));
-            close(f(5), w["mean_ci_lower"].as_f64().unwrap(), &format!("{what}: mean lower"));
-            close(f(6), w["mean_ci_upper"].as_f64().unwrap(), &format!("{what}: mean upper"));
-            close(f(7), w["obs_ci_lower"].as_f64().unwrap(), &format!("{what}: new lower"));
-            close(f(8), w["obs_ci_upper"].as_f64().unwrap(), &format!("{what}: new upper"));
+            close(f(4), w["mean_ci_lower"].as_f64().unwrap(), &format!("{what}: confidence interval from"));
+            close(f(5), w["mean_ci_upper"].as_f64().unwrap(), &format!("{what}: confidence interval to"));
+            close(f(6), w["obs_ci_lower"].as_f64().unwrap(), &format!("{what}: prediction interval from"));
+            close(f(7), w["obs_ci_upper"].as_f64().unwrap(), &format!("{what}: prediction interval to"));
+            close(f(8), w["mean_se"].as_f64().unwrap(), &format!("{what}: standard error of the fitted value"));
         }
     }
     // The one-point request cell holds the predicted value as a number.
@@ -140,7 +140,7 @@ fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
             assert_eq!(num(&row[0]), w["point"]["AIRFLOW"].as_f64());
             let f = |c: usize| num(&row[c]).unwrap_or_else(|| panic!("no number in column {c}"));
             let what = format!("polynomial, level {level} at {}", w["point"]);
-            for (c, key) in [(1, "mean"), (2, "mean_se"), (3, "mean_ci_lower"), (4, "mean_ci_upper"), (5, "obs_ci_lower"), (6, "obs_ci_upper")] {
+            for (c, key) in [(1, "mean"), (2, "mean_ci_lower"), (3, "mean_ci_upper"), (4, "obs_ci_lower"), (5, "obs_ci_upper"), (6, "mean_se")] {
                 close(f(c), w[key].as_f64().unwrap(), &format!("{what}: {key}"));
             }
         }

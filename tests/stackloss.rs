@@ -28,7 +28,7 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     let coefs = output::coefficients(&out, "stack");
     // statsmodels 0.15.0, datasets/README.md table "Stack loss OLS figures".
     let want = [
-        ("(intercept)", -39.91967442, 11.89599685, -3.355723351),
+        ("Intercept", -39.91967442, 11.89599685, -3.355723351),
         ("AIRFLOW", 0.7156402005, 0.1348581854, 5.306613007),
         ("WATERTEMP", 1.295286124, 0.3680242653, 3.519567177),
         ("ACIDCONC", -0.1521225191, 0.1562940432, -0.9733097691),
@@ -45,14 +45,14 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     close(stat("Adjusted R²"), 0.8983257700, "adjusted R²");
     close(stat("F statistic"), 59.90222590, "F");
     close(stat("p-value of F"), 3.016327243e-09, "p of F");
-    close(stat("Root mean squared error"), 3.243363918, "residual SD");
-    close(stat("Sum of squares, residual"), 178.8299616, "SSE");
+    close(stat("Residual standard error"), 3.243363918, "residual standard error");
+    close(output::anova(&out, "stack", "Left in the residuals", "Sum of squares").expect("the grid"), 178.8299616, "SSE");
     close(stat("Log-likelihood"), -52.28779550, "log-likelihood");
     close(stat("AIC"), 112.5755910, "AIC");
     close(stat("BIC"), 116.7536808, "BIC");
     // Residual checks, statsmodels 0.15.0 (durbin_watson, het_breuschpagan
     // with robust=True and robust=False, jarque_bera), same README table.
-    close(stat("Durbin–Watson"), 1.485131034, "Durbin–Watson");
+    close(stat("Durbin–Watson (no correlation = 2)"), 1.485131034, "Durbin–Watson");
     close(stat("Breusch–Pagan (Koenker, studentized)"), 4.890367744, "Breusch–Pagan, Koenker");
     close(stat("p-value of Breusch–Pagan (Koenker)"), 0.1800032435, "p of Breusch–Pagan, Koenker");
     close(stat("Breusch–Pagan (original)"), 5.152993099, "Breusch–Pagan, original");
@@ -60,8 +60,8 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     assert_eq!(stat("Degrees of freedom of Breusch–Pagan"), 3.0, "3 auxiliary regressors (README)");
     close(stat("Jarque–Bera"), 0.1402405728, "Jarque–Bera");
     close(stat("p-value of Jarque–Bera"), 0.9322816724, "p of Jarque–Bera");
-    close(stat("Skewness of residuals"), -0.1928335246, "skewness");
-    close(stat("Kurtosis of residuals"), 3.107405156, "kurtosis");
+    close(stat("Skewness of residuals (symmetric = 0)"), -0.1928335246, "skewness");
+    close(stat("Kurtosis of residuals (normal = 3)"), 3.107405156, "kurtosis");
     // Durbin–Watson 1.485 is below the warning band's 1.5 (our rule of
     // thumb), and row 21 (sheet row 22 under the header) is the one with
     // the largest Cook's distance in these data (statsmodels 0.15.0,
@@ -75,10 +75,9 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     // header is sheet row 1), statsmodels 0.15.0 OLSInfluence values from
     // tests/data/statsmodels_figures.json; and one row above each rule of
     // thumb (2p/n, 4/n, |t| > 3; counted from the same file's figures).
-    let diag = output::table(&out, "Diagnostics");
     let row_of = |label: &str| {
-        let r = diag.iter().find(|r| r.first().and_then(output::text) == Some(label)).unwrap_or_else(|| panic!("no {label}"));
-        (output::num(&r[1]).unwrap(), r.get(2).and_then(output::text).unwrap_or("").to_string())
+        let (v, at) = output::statistic_at(&out, "stack", label).unwrap_or_else(|| panic!("no {label}"));
+        (v, at.unwrap_or_default())
     };
     let (lev, at) = row_of("Largest leverage");
     close(lev, 0.41212349785785984, "largest leverage");
@@ -86,10 +85,10 @@ fn stack_loss_matches_statsmodels_to_nine_digits() {
     let (cook, at) = row_of("Largest Cook's distance");
     close(cook, 0.6919999163395193, "largest Cook's distance");
     assert_eq!(at, "row 22 of Plant");
-    let (t, at) = row_of("Largest studentized residual (by size)");
+    let (t, at) = row_of("Largest externally studentized residual (by size)");
     close(t, -3.330493319328064, "largest studentized residual");
     assert_eq!(at, "row 22 of Plant");
-    for label in ["Rows with leverage above 2p/n", "Rows with Cook's distance above 4/n", "Rows with |studentized residual| above 3"] {
+    for label in ["Rows with leverage above 2p/n", "Rows with Cook's distance above 4/n", "Rows with |externally studentized residual| above 3"] {
         assert_eq!(stat(label), 1.0, "{label}");
     }
     let _ = std::fs::remove_dir_all(&dir);

@@ -77,8 +77,8 @@ fn check_dataset(key: &str, csv_text: &str, response: &str, terms: &[&str]) {
     for (label, field) in [
         ("Leverage", "leverage"),
         ("Cook's distance", "cooks_distance"),
-        ("Standardized residual", "studentized_residuals_internal"),
-        ("Studentized residual", "studentized_residuals_external"),
+        ("Internally studentized residual", "studentized_residuals_internal"),
+        ("Externally studentized residual", "studentized_residuals_external"),
         ("DFFITS", "dffits"),
     ] {
         let got = residual_column(&out, "Data", label, "fit");
@@ -101,7 +101,7 @@ fn check_dataset(key: &str, csv_text: &str, response: &str, terms: &[&str]) {
     for (j, r) in rows[1..].iter().enumerate() {
         close(output::num(&r[c("VIF")]).expect("a VIF"), vif[j], &format!("{key} VIF of {}", terms[j]));
         close(output::num(&r[c("Standardized coefficient")]).expect("a value"), std[j], &format!("{key} standardized coefficient of {} (numpy)", terms[j]));
-        assert_eq!(output::text(&r[c("Standard errors")]), Some("classic"));
+        assert_eq!(output::text(&r[c("Standard-error method")]), Some("classic"));
     }
 
     // Heteroscedasticity-consistent standard errors, and t = b/se with them.
@@ -116,10 +116,10 @@ fn check_dataset(key: &str, csv_text: &str, response: &str, terms: &[&str]) {
         }
     }
     let hc3 = t[1..].iter().find(|r| output::text(&r[c("Fit")]) == Some("hc3")).expect("hc3 rows");
-    assert_eq!(output::text(&hc3[c("Standard errors")]), Some("HC3"));
+    assert_eq!(output::text(&hc3[c("Standard-error method")]), Some("HC3"));
 
     // Condition number of the design with unit-length columns (numpy).
-    let kappa = output::statistic(&out, "fit", "Condition number (scaled design)").expect("condition number");
+    let kappa = output::statistic(&out, "fit", "Condition number (columns scaled to unit length)").expect("condition number");
     close(kappa, want["condition_number_unit_columns_numpy"].as_f64().unwrap(), &format!("{key} condition number (numpy)"));
     report(key);
 
@@ -188,7 +188,7 @@ fn weighted_stack_loss_robust_errors_and_residual_checks_match_statsmodels() {
         }
     }
     let stat = |label: &str| output::statistic(&out, "w", label).unwrap_or_else(|| panic!("no {label}"));
-    close(stat("Durbin–Watson"), want["durbin_watson_weighted_residuals"].as_f64().unwrap(), "weighted Durbin–Watson");
+    close(stat("Durbin–Watson (no correlation = 2)"), want["durbin_watson_weighted_residuals"].as_f64().unwrap(), "weighted Durbin–Watson");
     let jb = floats(&want["jarque_bera_weighted_residuals"]);
     close(stat("Jarque–Bera"), jb[0], "weighted Jarque–Bera");
     close(stat("p-value of Jarque–Bera"), jb[1], "weighted p of Jarque–Bera");

@@ -8,12 +8,19 @@ use super::{Fit, FitError};
 use crate::numeric::diagnostics::{self as diag, ErrorKind};
 use crate::numeric::{self, LsProblem};
 use crate::protocol::{
-    Coefficient, FitOutcome, FitRequest, Formula, FunctionSpec, LeastSquares, Likelihood, Link, NumberFormat, OptionValue, ParamKind, ParamSpec, Predictor, PredictorForm, RowColumn, RowRole,
+    Coefficient, FitOutcome, ANOVA_GROUP, FitRequest, Formula, FunctionSpec, LeastSquares, Likelihood, Link, NumberFormat, OptionValue, ParamKind, ParamSpec, Predictor, PredictorForm, RowColumn, RowRole,
     RowWarning, Statistic, TermWarning,
 };
 
 /// The label of the intercept term.
-pub const INTERCEPT: &str = "(intercept)";
+pub const INTERCEPT: &str = "Intercept";
+
+/// Diagnostics heading: how closely the fit follows the data.
+pub const GROUP_FIT: &str = "How closely does it fit?";
+/// Diagnostics heading: the overall F test.
+pub const GROUP_HELP: &str = "Do the terms help at all?";
+/// Diagnostics heading: log-likelihood, AIC and BIC.
+pub const GROUP_COMPARE: &str = "For comparing fits of one response";
 
 /// The built-in least-squares fit.
 pub struct Linear {
@@ -112,6 +119,26 @@ fn pval(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic::new(key, label, group, value).format(NumberFormat::PValue)
 }
 
+/// A figure on a known scale, shown to `d` decimals.
+fn dec(key: &str, label: &str, group: &str, value: f64, d: u8) -> Statistic {
+    Statistic::new(key, label, group, value).format(NumberFormat::Decimals(d))
+}
+
+/// The design columns of each term of the request, in order: one column
+/// for a numeric term, one per indicator for a text column (columns that
+/// share [`crate::protocol::Column::term`]). Indices count the intercept.
+fn term_blocks(req: &FitRequest) -> Vec<(String, Vec<usize>)> {
+    let off = usize::from(req.intercept);
+    let mut out: Vec<(String, Vec<usize>)> = Vec::new();
+    for (j, c) in req.columns.iter().enumerate() {
+        match out.iter_mut().find(|(t, _)| *t == c.term) {
+            Some((_, cols)) => cols.push(j + off),
+            None => out.push((c.term.clone(), vec![j + off])),
+        }
+    }
+    out
+}
+
 fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
 }
@@ -179,8 +206,36 @@ impl Fit for Linear {
         }
         let vif = diag::variance_inflation(&fit, &x, intercept_col);
         let standardized = diag::standardized_coefficients(&fit, &x, &req.response.values, intercept_col);
+        // Columns that are powers of a base with two or more powers in the
+        // model (`Light`, `Light^2`), and the terms that make several
+        // columns (the indicators of a text column), by design column.
+        let off = usize::from(req.intercept);
+        let mut structural = vec![false; off];
+        for c in &req.columns {
+            let shared = c.power.as_ref().is_some_and(|pw| req.columns.iter().filter(|o| o.power.as_ref().is_some_and(|q| q.base == pw.base)).count() > 1);
+            structural.push(shared);
+        }
+        let blocks = term_blocks(req);
+        let in_block = |j: usize| blocks.iter().any(|(_, cols)| cols.len() > 1 && cols.contains(&j));
         for (j, row) in table.iter().enumerate() {
             let est = !fit.aliased[j];
+            // VIF and standardized coefficients mean nothing for a power
+            // beside other powers of its column (collinear by construction,
+            // and "one standard deviation more of x²" with x fixed cannot
+            // happen) and without an intercept (there is no mean to centre
+            // on); a text column's indicators get one figure for the term.
+            let remark = if !est || Some(j) == intercept_col {
+                None
+            } else if !req.intercept {
+                Some("VIF and standardized coefficient left blank: without an intercept they have no meaning")
+            } else if structural[j] {
+                Some("VIF and standardized coefficient left blank: a power beside other powers of its column")
+            } else if in_block(j) {
+                Some("VIF left blank: one generalized VIF for the whole term is on Diagnostics")
+            } else {
+                None
+            };
+            let plain = remark.is_none();
             out.coefficients.push(Coefficient {
                 term: labels[j].clone(),
                 estimate: est.then_some(row.estimate).and_then(finite),
@@ -189,8 +244,9 @@ impl Fit for Linear {
                 p_value: est.then_some(row.p_value).and_then(finite),
                 lower: est.then_some(row.lower).and_then(finite),
                 upper: est.then_some(row.upper).and_then(finite),
-                vif: finite(vif[j]),
-                standardized: finite(standardized[j]),
+                vif: if plain { finite(vif[j]) } else { None },
+                standardized: if plain || (req.intercept && !structural[j]) { finite(standardized[j]) } else { None },
+                remark: remark.map(Into::into),
             });
             if fit.aliased[j] {
                 let combo: Vec<String> = fit.alias_of[j].iter().map(|(k, _)| labels[*k].clone()).collect();
@@ -201,29 +257,34 @@ impl Fit for Linear {
                 });
             }
         }
-        let g = "Goodness of fit";
-        let a = "Analysis of variance";
+        let g = GROUP_FIT;
+        let h = GROUP_HELP;
+        let c = GROUP_COMPARE;
+        let a = ANOVA_GROUP;
         let r2_label = if req.intercept { "R²" } else { "R² (uncentred, no intercept)" };
         out.statistics = vec![
             count("n", "Rows used (n)", g, fit.n as f64),
-            count("parameters", "Parameters estimated", g, fit.rank as f64),
-            stat("r_squared", r2_label, g, fit.r_squared),
-            stat("adj_r_squared", "Adjusted R²", g, fit.adj_r_squared),
-            stat("rmse", "Root mean squared error", g, fit.sigma),
-            stat("f_statistic", "F statistic", g, fit.f_statistic),
-            pval("f_p_value", "p-value of F", g, fit.f_p_value),
-            stat("log_likelihood", "Log-likelihood", g, fit.log_likelihood),
-            stat("aic", "AIC", g, fit.aic),
-            stat("bic", "BIC", g, fit.bic),
-            count("df_model", "Degrees of freedom, regression", a, fit.df_model),
-            stat("ss_model", "Sum of squares, regression", a, fit.ssr),
-            stat("ms_model", "Mean square, regression", a, fit.ssr / fit.df_model),
+            count("parameters", "Coefficients estimated (p)", g, fit.rank as f64),
+            count("residual_df", "Residual degrees of freedom (n − p)", g, fit.df_resid),
+            stat("residual_standard_error", "Residual standard error", g, fit.sigma),
+            dec("r_squared", r2_label, g, fit.r_squared, 4),
+            dec("adj_r_squared", "Adjusted R²", g, fit.adj_r_squared, 4),
+            dec("f_statistic", "F statistic", h, fit.f_statistic, 2),
+            count("f_df_terms", "F: degrees of freedom of the terms", h, fit.df_model),
+            count("f_df_residual", "F: residual degrees of freedom", h, fit.df_resid),
+            pval("f_p_value", "p-value of F", h, fit.f_p_value),
+            dec("log_likelihood", "Log-likelihood", c, fit.log_likelihood, 3),
+            dec("aic", "AIC", c, fit.aic, 3),
+            dec("bic", "BIC", c, fit.bic, 3),
+            count("df_model", "Degrees of freedom, terms", a, fit.df_model),
+            stat("ss_model", "Sum of squares, terms", a, fit.ssr),
+            stat("ms_model", "Mean square, terms", a, fit.ssr / fit.df_model),
             count("df_resid", "Degrees of freedom, residual", a, fit.df_resid),
             stat("ss_resid", "Sum of squares, residual", a, fit.sse),
             stat("ms_resid", "Mean square, residual", a, fit.sse / fit.df_resid),
-            stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
             count("df_total", "Degrees of freedom, total", a, fit.df_model + fit.df_resid),
-            stat("anova_f", "F (mean square regression / mean square residual)", a, fit.f_statistic),
+            stat("ss_total", if req.intercept { "Sum of squares, total (about the mean)" } else { "Sum of squares, total (about zero)" }, a, fit.sst),
+            dec("anova_f", "F (mean square of the terms / mean square of the residual)", a, fit.f_statistic, 2),
             pval("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
         if !req.intercept {
@@ -262,20 +323,20 @@ impl Fit for Linear {
         let cooks = numeric::cooks_distance(&fit);
         let external = diag::studentized_residuals_external(&fit);
         let dffits = diag::dffits(&fit, &external);
-        // Columns that are powers of a base with two or more powers in the model.
-        let mut structural = vec![false; usize::from(req.intercept)];
-        for c in &req.columns {
-            let shared = c.power.as_ref().is_some_and(|pw| req.columns.iter().filter(|o| o.power.as_ref().is_some_and(|q| q.base == pw.base)).count() > 1);
-            structural.push(shared);
-        }
-        diagnose(&fit, &x, &labels, &structural, &vif, &cooks, &external, &mut out);
+        let gvif: Vec<(String, f64, usize)> = blocks.iter().filter(|(_, cols)| cols.len() > 1).map(|(t, cols)| (t.clone(), diag::generalized_variance_inflation(&fit, &x, cols), cols.len())).collect();
+        let design = Design { x: &x, labels: &labels, structural: &structural, vif: &vif, gvif: &gvif };
+        diagnose(&fit, &design, &cooks, &external, &mut out);
+        // The blocks in plumb's order: the questions first, comparing fits
+        // and the analysis of variance last.
+        let rank = |g: &str| [GROUP_COMPARE, ANOVA_GROUP].iter().position(|x| *x == g).map_or(0, |i| i + 1);
+        out.statistics.sort_by_key(|s| rank(&s.group));
         out.rows = vec![
             RowColumn::new(RowRole::Fitted, fit.fitted.clone()),
             RowColumn::new(RowRole::Residual, fit.residuals.clone()),
             RowColumn::new(RowRole::StandardizedResidual, std_res),
+            RowColumn::new(RowRole::StudentizedResidual, external),
             RowColumn::new(RowRole::Leverage, fit.leverage.clone()),
             RowColumn::new(RowRole::CooksDistance, cooks),
-            RowColumn::new(RowRole::StudentizedResidual, external),
             RowColumn::new(RowRole::Dffits, dffits),
         ];
         Ok(out)
@@ -311,59 +372,88 @@ fn short(x: f64) -> String {
     }
 }
 
+/// The design as [`diagnose`] needs it: the columns (`n × p`,
+/// column-major), their labels, which are powers beside other powers of
+/// their column (collinear by construction: no VIF, no warning), the VIF of
+/// each column and the generalized VIF of each term of several columns.
+struct Design<'a> {
+    x: &'a [f64],
+    labels: &'a [String],
+    structural: &'a [bool],
+    vif: &'a [f64],
+    gvif: &'a [(String, f64, usize)],
+}
+
 /// The residual checks, collinearity and influence statistics of a fit, and
 /// the plain-language warnings they call for.
-/// `structural[j]` marks a column that is a power of a base column which
-/// also appears in another power (`Light`, `Light^2`): such columns are
-/// collinear by construction, so their VIF is reported but not warned about.
-#[allow(clippy::too_many_arguments)]
-fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bool], vif: &[f64], cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
+fn diagnose(fit: &numeric::LsFit, d: &Design, cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
+    let (x, labels, structural) = (d.x, d.labels, d.structural);
     let n = fit.n;
     let p = fit.coefficients.len();
     let nf = n as f64;
     let k = fit.rank as f64;
     let u = diag::weighted_residuals(fit);
-    let rc = "Residual checks";
-    let dw = diag::durbin_watson(&u);
-    out.statistics.push(stat("durbin_watson", "Durbin–Watson", rc, dw));
+    let shape = "Shape of the residuals";
+    let jb = diag::jarque_bera(&u);
+    out.statistics.push(dec("jarque_bera", "Jarque–Bera", shape, jb.statistic, 3));
+    out.statistics.push(pval("jarque_bera_p_value", "p-value of Jarque–Bera", shape, jb.p_value));
+    out.statistics.push(dec("skewness", "Skewness of residuals (symmetric = 0)", shape, jb.skewness, 3));
+    out.statistics.push(dec("kurtosis", "Kurtosis of residuals (normal = 3)", shape, jb.kurtosis, 3));
+    let spread = "Spread of the residuals";
     let bp = diag::breusch_pagan(&u, &fit.fitted, x, n, p, fit.has_intercept);
     if let Some(bp) = &bp {
-        out.statistics.push(stat("bp_koenker", "Breusch–Pagan (Koenker, studentized)", rc, bp.koenker));
-        out.statistics.push(pval("bp_koenker_p_value", "p-value of Breusch–Pagan (Koenker)", rc, bp.koenker_p));
-        out.statistics.push(stat("bp_original", "Breusch–Pagan (original)", rc, bp.original));
-        out.statistics.push(pval("bp_original_p_value", "p-value of Breusch–Pagan (original)", rc, bp.original_p));
-        out.statistics.push(count("bp_df", "Degrees of freedom of Breusch–Pagan", rc, bp.df));
+        out.statistics.push(dec("bp_koenker", "Breusch–Pagan (Koenker, studentized)", spread, bp.koenker, 3));
+        out.statistics.push(pval("bp_koenker_p_value", "p-value of Breusch–Pagan (Koenker)", spread, bp.koenker_p));
+        out.statistics.push(dec("bp_original", "Breusch–Pagan (original)", spread, bp.original, 3));
+        out.statistics.push(pval("bp_original_p_value", "p-value of Breusch–Pagan (original)", spread, bp.original_p));
+        out.statistics.push(count("bp_df", "Degrees of freedom of Breusch–Pagan", spread, bp.df));
     }
-    let jb = diag::jarque_bera(&u);
-    out.statistics.push(stat("jarque_bera", "Jarque–Bera", rc, jb.statistic));
-    out.statistics.push(pval("jarque_bera_p_value", "p-value of Jarque–Bera", rc, jb.p_value));
-    out.statistics.push(stat("skewness", "Skewness of residuals", rc, jb.skewness));
-    out.statistics.push(stat("kurtosis", "Kurtosis of residuals", rc, jb.kurtosis));
+    let order = "Order of the residuals";
+    let dw = diag::durbin_watson(&u);
+    out.statistics.push(dec("durbin_watson", "Durbin–Watson (no correlation = 2)", order, dw, 3));
 
-    let co = "Collinearity";
-    out.statistics.push(stat("condition_number", "Condition number (scaled design)", co, fit.condition_number));
-    if let Some((j, v)) = diag::largest(vif, false) {
-        out.statistics.push(stat("max_vif", &format!("Largest variance inflation factor ({})", labels[j]), co, v));
+    let co = "Do the terms overlap?";
+    // The scaled condition number is that of the raw design; a fit with
+    // powers of one column is solved in a centred basis instead, where that
+    // figure says nothing about its accuracy: left out there.
+    if structural.iter().any(|s| *s) {
+        out.notes.push("the condition number is left out: powers of one column are fitted in a centred, scaled basis, so the raw design's condition number says nothing about this fit's accuracy".into());
+    } else {
+        out.statistics.push(dec("condition_number", "Condition number (columns scaled to unit length)", co, fit.condition_number, 1));
+    }
+    // The VIFs shown: none for powers beside other powers, for a text
+    // column's indicators or without an intercept.
+    let single: Vec<f64> = d
+        .vif
+        .iter()
+        .enumerate()
+        .map(|(j, v)| if out.coefficients.get(j).is_some_and(|c| c.vif.is_none()) { f64::NAN } else { *v })
+        .collect();
+    if let Some((j, v)) = diag::largest(&single, false) {
+        out.statistics.push(dec("max_vif", "Largest variance inflation factor", co, v, 2).detail(labels[j].clone()));
+    }
+    for (term, g, _) in d.gvif {
+        out.statistics.push(dec(&format!("gvif:{term}"), &format!("Generalized VIF of {term}"), co, *g, 2));
     }
 
-    let inf = "Influence";
+    let inf = "Rows that stand out";
     let lev_limit = 2.0 * k / nf;
     let cook_limit = 4.0 / nf;
     if let Some((i, v)) = diag::largest(&fit.leverage, false) {
-        out.statistics.push(stat("max_leverage", "Largest leverage", inf, v));
+        out.statistics.push(dec("max_leverage", "Largest leverage", inf, v, 4));
         out.statistic_rows.insert("max_leverage".into(), i);
     }
     if let Some((i, v)) = diag::largest(cooks, false) {
-        out.statistics.push(stat("max_cooks_distance", "Largest Cook's distance", inf, v));
+        out.statistics.push(dec("max_cooks_distance", "Largest Cook's distance", inf, v, 4));
         out.statistic_rows.insert("max_cooks_distance".into(), i);
     }
     if let Some((i, v)) = diag::largest(external, true) {
-        out.statistics.push(stat("max_studentized_residual", "Largest studentized residual (by size)", inf, v));
+        out.statistics.push(dec("max_studentized_residual", "Largest externally studentized residual (by size)", inf, v, 3));
         out.statistic_rows.insert("max_studentized_residual".into(), i);
     }
     out.statistics.push(count("leverage_flag_count", "Rows with leverage above 2p/n", inf, diag::count_above(&fit.leverage, lev_limit, false) as f64));
     out.statistics.push(count("cooks_flag_count", "Rows with Cook's distance above 4/n", inf, diag::count_above(cooks, cook_limit, false) as f64));
-    out.statistics.push(count("studentized_flag_count", "Rows with |studentized residual| above 3", inf, diag::count_above(external, STUDENTIZED_FLAG, true) as f64));
+    out.statistics.push(count("studentized_flag_count", "Rows with |externally studentized residual| above 3", inf, diag::count_above(external, STUDENTIZED_FLAG, true) as f64));
 
     // Warnings in plain words.
     if dw.is_finite() && n >= 3 && (dw < DW_BAND.0 || dw > DW_BAND.1) {
@@ -375,7 +465,7 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bo
     }
     if let Some(bp) = &bp {
         if bp.koenker_p < BP_ALPHA {
-            let what = if bp.trend_with_fitted > 0.0 { "the spread of the residuals grows with the fitted value" } else { "the spread of the residuals changes with the terms" };
+            let what = if bp.trend_with_fitted > 0.0 { "the spread of the residuals changes with the terms, growing with the fitted value" } else { "the spread of the residuals changes with the terms" };
             out.warnings.push(format!(
                 "{what} (Breusch–Pagan p = {}, below {BP_ALPHA}); classic standard errors may be off — errors=hc3 gives ones that allow for it",
                 short(bp.koenker_p)
@@ -393,14 +483,17 @@ fn diagnose(fit: &numeric::LsFit, x: &[f64], labels: &[String], structural: &[bo
     if big.len() > 3 {
         out.warnings.push(format!("{} more rows have Cook's distance above {COOK_WARN}", big.len() - 3));
     }
-    let collinear: Vec<String> = vif
-        .iter()
-        .enumerate()
-        .filter(|(j, v)| v.is_finite() && **v > VIF_WARN && !structural.get(*j).copied().unwrap_or(false))
-        .map(|(j, v)| format!("{} ({})", labels[j], short(*v)))
-        .collect();
+    // A term of several columns is judged by its generalized VIF on the
+    // VIF's own scale, GVIF^(1/df) (Fox & Monette 1992 compare
+    // GVIF^(1/(2·df)) with √VIF).
+    let mut collinear: Vec<String> = single.iter().enumerate().filter(|(_, v)| v.is_finite() && **v > VIF_WARN).map(|(j, v)| format!("{} ({})", labels[j], short(*v))).collect();
+    for (term, g, df) in d.gvif {
+        if g.is_finite() && g.powf(1.0 / *df as f64) > VIF_WARN {
+            collinear.push(format!("{term} (generalized VIF {})", short(*g)));
+        }
+    }
     if structural.iter().any(|s| *s) {
-        out.notes.push("powers of one column are collinear by construction, so their variance inflation factors are high without harm; they draw no warning".into());
+        out.notes.push("powers of one column are collinear by construction, which does no harm to the fit; their variance inflation factors are left blank and draw no warning".into());
     }
     if !collinear.is_empty() {
         out.warnings.push(format!(
@@ -449,8 +542,11 @@ mod tests {
         assert_eq!(out.standard_errors.as_deref(), Some("HC3"));
         let aliased = &out.coefficients[1];
         assert!(aliased.estimate.is_none() && aliased.std_error.is_none() && aliased.vif.is_none());
+        // Without an intercept VIF and standardized coefficients mean
+        // nothing: blank, with the reason.
         for c in [&out.coefficients[0], &out.coefficients[2]] {
-            assert!(c.std_error.is_some_and(|v| v > 0.0) && c.vif.is_some_and(|v| v >= 1.0), "{c:?}");
+            assert!(c.std_error.is_some_and(|v| v > 0.0) && c.vif.is_none() && c.standardized.is_none(), "{c:?}");
+            assert!(c.remark.as_deref().is_some_and(|r| r.contains("without an intercept")), "{c:?}");
         }
         assert!(out.notes.iter().any(|n| n.contains("HC3")));
     }

@@ -155,7 +155,7 @@ mod tests {
         let y: Vec<f64> = x.iter().map(|v| 2.0 + 0.25 * v * v).collect();
         let out = Polynomial::new().fit(&request(&x, &y, 2.0)).expect("fits");
         let terms: Vec<&str> = out.coefficients.iter().map(|c| c.term.as_str()).collect();
-        assert_eq!(terms, ["(intercept)", "Light", "Light^2"]);
+        assert_eq!(terms, ["Intercept", "Light", "Light^2"]);
         let est: Vec<f64> = out.coefficients.iter().map(|c| c.estimate.unwrap_or(f64::NAN)).collect();
         assert!((est[0] - 2.0).abs() < 1e-13 && est[1].abs() < 1e-13 && (est[2] - 0.25).abs() < 1e-15, "{est:?}");
     }

@@ -10,7 +10,7 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
     row += 1;
     s.put(row, 0, OutCell::text(format!("Fits of {} on the same {} rows.", c.response, r.rows_used), Style::Plain));
     row += 1;
-    for (j, h) in ["Fit", "Rows used", "Parameters", "R²", "Adjusted R²", "Root mean squared error", "AIC", "BIC", "Lowest AIC"].iter().enumerate() {
+    for (j, h) in ["Fit", "Rows used", "Coefficients estimated", "R²", "Adjusted R²", "Residual standard error", "AIC", "BIC", "Lowest AIC"].iter().enumerate() {
         s.put(row, j as u32, OutCell::text(*h, Style::Header));
     }
     row += 1;
@@ -18,8 +18,8 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
         s.put(row, 0, OutCell::text(&f.name, Style::Plain));
         s.put(row, 1, OutCell::number(f.n, Style::Integer));
         s.put(row, 2, OutCell::number(f.parameters, Style::Integer));
-        for (j, x) in [f.r_squared, f.adj_r_squared, f.rmse, f.aic, f.bic].iter().enumerate() {
-            s.put(row, 3 + j as u32, OutCell::number(*x, Style::Number));
+        for (j, (x, style)) in [(f.r_squared, Style::Fixed(4)), (f.adj_r_squared, Style::Fixed(4)), (f.rmse, Style::Number), (f.aic, Style::Fixed(3)), (f.bic, Style::Fixed(3))].iter().enumerate() {
+            s.put(row, 3 + j as u32, OutCell::number(*x, *style));
         }
         if i == c.lowest_aic {
             s.put(row, 8, OutCell::text("lowest AIC", Style::Good));
@@ -40,7 +40,7 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
         for t in &c.nested {
             s.put(row, 0, OutCell::text(&t.smaller, Style::Plain));
             s.put(row, 1, OutCell::text(&t.larger, Style::Plain));
-            s.put(row, 2, OutCell::number(t.f, Style::Number));
+            s.put(row, 2, OutCell::number(t.f, Style::Fixed(2)));
             s.put(row, 3, OutCell::number(t.df_num, Style::Integer));
             s.put(row, 4, OutCell::number(t.df_den, Style::Integer));
             s.put(row, 5, OutCell::number(t.p_value, Style::PValue));
@@ -52,7 +52,7 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
         row,
         0,
         OutCell::text(
-            "How to choose: prefer the fit with the lower AIC (or BIC, which penalises extra terms more); a difference below about 2 is slight. For nested fits, a small p-value of F (say below 0.05) says the extra terms help. Prefer the simpler fit when the figures are close, and check its residuals.",
+            "How to choose: prefer the fit with the lower AIC (or BIC, which penalises extra terms more); a difference below about 2 is slight. For nested fits, a small p-value of F (say below 0.05) says the extra terms help. Prefer the simpler fit when the figures are close, and check its residuals. The F tests here use the classic residual variance even when a fit asked for errors=hc*.",
             Style::Wrap,
         ),
     );

@@ -8,7 +8,7 @@ pub(super) fn sheet(fits_n: &str, coef_n: &str, reports: &[Report], first_coef_r
     let mut fits = Sheet::new(fits_n);
     fits.header(
         0,
-        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 80.0)],
+        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms, or the fits it uses", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 80.0)],
     );
     for (i, r) in reports.iter().enumerate() {
         let row = i as u32 + 1;
@@ -19,7 +19,14 @@ pub(super) fn sheet(fits_n: &str, coef_n: &str, reports: &[Report], first_coef_r
         fits.put(row, 0, name);
         fits.put(row, 1, OutCell::text(&r.function, Style::Plain));
         fits.put(row, 2, OutCell::text(&r.response, Style::Plain));
-        fits.put(row, 3, OutCell::text(r.terms.join(" + "), Style::Plain));
+        // A host function's "terms" are the fits it reads: listed as such,
+        // not joined with + as if they were a model.
+        let terms = if r.host.is_some() {
+            if r.terms.is_empty() { String::new() } else { format!("{}: {}", if r.terms.len() == 1 { "fit" } else { "fits" }, r.terms.join(", ")) }
+        } else {
+            r.terms.join(" + ")
+        };
+        fits.put(row, 3, OutCell::text(terms, Style::Plain));
         fits.put(row, 4, OutCell::text(r.cell.to_string(), Style::Link).link(link_to(&r.cell.sheet, r.cell.row, r.cell.col)));
         if r.outcome.is_some() {
             fits.put(row, 5, OutCell::number(r.rows_used as f64, Style::Integer));

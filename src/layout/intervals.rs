@@ -3,6 +3,7 @@
 //! whose predictor is linear in its coefficients (live formulas over the
 //! stored covariance, cached with the values of [`crate::predict`]).
 
+use super::coefficients::estimate_style;
 use super::{link_to, Cached, Content, OutCell, Sheet, Style};
 use crate::cells::column_letters;
 use crate::predict;
@@ -14,17 +15,18 @@ use crate::report::{HostOutcome, Prediction, Report};
 /// table.
 pub(super) fn sheet(int_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<String>>) {
     let mut ints = Sheet::new(int_n);
-    ints.header(0, &[("Fit", 14.0), ("Term", 22.0), ("Level", 8.0), ("Estimate", 14.0), ("Lower bound", 14.0), ("Upper bound", 14.0)]);
+    ints.header(0, &[("Fit", 14.0), ("Term", 22.0), ("Level", 8.0), ("Estimate", 14.0), ("Confidence interval: from", 14.0), ("Confidence interval: to", 14.0)]);
     let mut irow = 1u32;
     for r in reports {
         let Some(o) = &r.outcome else { continue };
         for c in &o.coefficients {
+            let est = estimate_style(c);
             ints.put(irow, 0, OutCell::text(&r.name, Style::Plain));
             ints.put(irow, 1, OutCell::text(&c.term, Style::Plain));
-            ints.put(irow, 2, OutCell::number(r.level, Style::Number));
-            ints.put(irow, 3, OutCell::maybe(c.estimate, Style::Number));
-            ints.put(irow, 4, OutCell::maybe(c.lower, Style::Number));
-            ints.put(irow, 5, OutCell::maybe(c.upper, Style::Number));
+            ints.put(irow, 2, OutCell::number(r.level, Style::Percent));
+            ints.put(irow, 3, OutCell::maybe(c.estimate, est));
+            ints.put(irow, 4, OutCell::maybe(c.lower, est));
+            ints.put(irow, 5, OutCell::maybe(c.upper, est));
             irow += 1;
         }
     }
@@ -58,10 +60,20 @@ fn value_cell(v: &NewValue, style: Style) -> OutCell {
 fn prediction_table(s: &mut Sheet, mut row: u32, r: &Report, p: &Prediction) -> u32 {
     s.put(row, 0, OutCell::text(format!("Predictions — {}", r.text.trim()), Style::Title));
     row += 1;
-    s.put(row, 0, OutCell::text(format!("From the fit {} of {}, at level {}: the predicted value, the confidence interval of the mean response, and the interval for one new observation.", p.fit, r.response, p.level), Style::Plain));
+    s.put(
+        row,
+        0,
+        OutCell::text(
+            format!(
+                "From the fit {} of {}, at level {}: the predicted value; the confidence interval, where the mean response at these values is estimated to lie; the prediction interval, where one new observation would fall.",
+                p.fit, r.response, p.level
+            ),
+            Style::Plain,
+        ),
+    );
     row += 1;
     let mut headers: Vec<String> = p.inputs.clone();
-    for h in ["Predicted value", "Standard error of the mean", "Mean: lower bound", "Mean: upper bound", "New observation: lower bound", "New observation: upper bound", "Leverage", "Outside the data"] {
+    for h in ["Predicted value", "Confidence interval: from", "Confidence interval: to", "Prediction interval: from", "Prediction interval: to", "Standard error of the fitted value", "Leverage", "Outside the data"] {
         headers.push(h.into());
     }
     for (c, h) in headers.iter().enumerate() {
@@ -73,9 +85,9 @@ fn prediction_table(s: &mut Sheet, mut row: u32, r: &Report, p: &Prediction) -> 
         for (c, v) in pr.values.iter().enumerate() {
             s.put(row, c as u32, value_cell(v, Style::Number));
         }
-        let nums = [pr.at.predicted, pr.at.se_mean, pr.at.mean_lower, pr.at.mean_upper, pr.at.new_lower, pr.at.new_upper, pr.at.leverage];
+        let nums = [pr.at.predicted, pr.at.mean_lower, pr.at.mean_upper, pr.at.new_lower, pr.at.new_upper, pr.at.se_mean, pr.at.leverage];
         for (j, x) in nums.iter().enumerate() {
-            s.put(row, k + j as u32, OutCell::number(*x, Style::Number));
+            s.put(row, k + j as u32, OutCell::number(*x, if j == 6 { Style::Fixed(4) } else { Style::Number }));
         }
         if !pr.outside.is_empty() {
             s.put(row, k + 7, OutCell::text(pr.outside.join("; "), Style::Warning));
@@ -127,7 +139,7 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
         row + 1,
         0,
         OutCell::text(
-            "Type new values into the shaded cells (a text column offers its levels in a list); the prediction and both intervals below follow. They start at the data's means and base levels.",
+            "Type new values into the shaded cells (a text column offers its levels in a list); the prediction and both intervals below follow. They start at the data's means and reference levels.",
             Style::Plain,
         ),
     );
@@ -144,13 +156,14 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
                 s.put(rr, 3, OutCell::number(*max, Style::Number));
             }
             InputKind::Levels { levels, base } => {
-                s.put(rr, 2, OutCell::text(format!("levels: {} (base {base})", levels.join(", ")), Style::Plain));
+                s.put(rr, 2, OutCell::text(format!("levels: {} (reference level {base})", levels.join(", ")), Style::Plain));
                 s.choices.insert((rr, 1), levels.clone());
             }
         }
     }
     s.put(r_lvl, 0, OutCell::text("Confidence level", Style::Plain));
     s.put(r_lvl, 1, OutCell::number(r.level, Style::Input));
+    s.put(r_lvl, 2, OutCell::text("a share: 0.95 for 95 %", Style::Plain));
 
     // Values computed by `predict`, cached in the formulas for readers that
     // do not recalculate.
@@ -161,18 +174,18 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
     let (bcol, xcol, ucol, vcol0) = (1u32, 2u32, 3u32, 4u32);
     let vcol1 = vcol0 + p as u32 - 1;
     let range = |c0: u32, r0: u32, c1: u32, r1: u32| format!("{}:{}", abs(r0, c0), abs(r1, c1));
-    let (c_pred, c_sem, c_sen, c_t, c_s, c_df) = (abs(r_res, 1), abs(r_res + 1, 1), abs(r_res + 2, 1), abs(r_res + 3, 1), abs(r_res + 8, 1), abs(r_res + 9, 1));
+    let (c_pred, c_sem, c_sen, c_t, c_s, c_df) = (abs(r_res, 1), abs(r_res + 5, 1), abs(r_res + 6, 1), abs(r_res + 7, 1), abs(r_res + 8, 1), abs(r_res + 9, 1));
     let lvl = abs(r_lvl, 1);
     let rows: [(&str, String, f64); 10] = [
         ("Predicted value", format!("SUMPRODUCT({},{})", range(bcol, r_t0, bcol, r_t1), range(xcol, r_t0, xcol, r_t1)), pred),
-        ("Standard error of the mean", format!("SQRT(MAX(0,SUMPRODUCT({},{})))", range(xcol, r_t0, xcol, r_t1), range(ucol, r_t0, ucol, r_t1)), se_mean),
+        ("Confidence interval: from", format!("{c_pred}-{c_t}*{c_sem}"), pt.mean_lower),
+        ("Confidence interval: to", format!("{c_pred}+{c_t}*{c_sem}"), pt.mean_upper),
+        ("Prediction interval: from", format!("{c_pred}-{c_t}*{c_sen}"), pt.new_lower),
+        ("Prediction interval: to", format!("{c_pred}+{c_t}*{c_sen}"), pt.new_upper),
+        ("Standard error of the fitted value", format!("SQRT(MAX(0,SUMPRODUCT({},{})))", range(xcol, r_t0, xcol, r_t1), range(ucol, r_t0, ucol, r_t1)), se_mean),
         ("Standard error of a new observation", format!("SQRT({c_s}^2+{c_sem}^2)"), se_new),
         ("t quantile", format!("TINV(1-{lvl},{c_df})"), t),
-        ("Mean: lower bound", format!("{c_pred}-{c_t}*{c_sem}"), pt.mean_lower),
-        ("Mean: upper bound", format!("{c_pred}+{c_t}*{c_sem}"), pt.mean_upper),
-        ("New observation: lower bound", format!("{c_pred}-{c_t}*{c_sen}"), pt.new_lower),
-        ("New observation: upper bound", format!("{c_pred}+{c_t}*{c_sen}"), pt.new_upper),
-        ("Residual standard deviation", String::new(), sigma),
+        ("Residual standard error", String::new(), sigma),
         ("Residual degrees of freedom", String::new(), df),
     ];
     for (i, (label, f, v)) in rows.iter().enumerate() {
@@ -181,7 +194,7 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
         if f.is_empty() {
             s.put(rr, 1, OutCell::number(*v, if i == 9 { Style::Integer } else { Style::Number }));
         } else {
-            s.put(rr, 1, formula(f.clone(), *v, Style::Number));
+            s.put(rr, 1, formula(f.clone(), *v, Style::General));
         }
     }
     if o.coefficients.iter().any(|c| c.estimate.is_none()) {
@@ -197,12 +210,12 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
         let rr = r_t0 + j as u32;
         let vc = vcol0 + j as u32;
         s.put(r_th, vc, OutCell::text(&c.term, Style::Header));
-        s.put(r_across, vc, formula(abs(rr, xcol), x[j], Style::Number));
+        s.put(r_across, vc, formula(abs(rr, xcol), x[j], Style::General));
         s.put(rr, 0, OutCell::text(&c.term, Style::Plain));
         s.put(rr, bcol, OutCell::number(b[j], Style::Number));
         let (xv, xf) = &xs[j];
-        s.put(rr, xcol, formula(xf.clone(), *xv, Style::Number));
-        s.put(rr, ucol, formula(format!("SUMPRODUCT({},{})", range(vcol0, rr, vcol1, rr), range(vcol0, r_across, vcol1, r_across)), u[j], Style::Number));
+        s.put(rr, xcol, formula(xf.clone(), *xv, Style::General));
+        s.put(rr, ucol, formula(format!("SUMPRODUCT({},{})", range(vcol0, rr, vcol1, rr), range(vcol0, r_across, vcol1, r_across)), u[j], Style::General));
         for (m, v) in cov[j].iter().enumerate() {
             s.put(rr, vcol0 + m as u32, OutCell::number(*v, Style::Number));
         }

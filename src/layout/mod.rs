@@ -48,6 +48,13 @@ pub enum Style {
     Integer,
     /// A p-value: four decimals, or scientific below 0.0001.
     PValue,
+    /// A number shown to this many decimals (the cell keeps every digit).
+    Fixed(u8),
+    /// A share shown as a whole percentage, such as a level of 0.95 as 95%.
+    Percent,
+    /// A number in the spreadsheet's general format, which adapts to the
+    /// value: for live formulas, whose value the reader changes.
+    General,
     /// Text that wraps within the column.
     Wrap,
     /// A request outcome that went well: bold.

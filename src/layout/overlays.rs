@@ -35,6 +35,31 @@ pub fn outcome_line(r: &Report) -> String {
     }
 }
 
+/// A figure for a note: six significant digits (the cells keep every digit).
+fn short(x: f64) -> String {
+    if !x.is_finite() {
+        return String::new();
+    }
+    let s = format!("{x:.5e}");
+    match s.split_once('e').map(|(m, e)| (m.parse::<f64>(), e.parse::<i32>())) {
+        Some((Ok(m), Ok(e))) if (-4..7).contains(&e) => {
+            let d = (5 - e).max(0) as usize;
+            format!("{:.d$}", m * 10f64.powi(e))
+        }
+        _ => s,
+    }
+}
+
+/// A level as a percentage: 0.95 as "95 %".
+fn percent(level: f64) -> String {
+    let p = level * 100.0;
+    if (p - p.round()).abs() < 1e-9 {
+        format!("{} %", p.round())
+    } else {
+        format!("{p} %")
+    }
+}
+
 /// The overlay of every source sheet, in source order.
 pub(super) fn overlays(book: &Workbook, reports: &[Report], names: &SheetNames, first_coef_row: &[Option<u32>], host_links: &[Option<String>]) -> Vec<Overlay> {
     let mut overlays: Vec<Overlay> = book.sheets.iter().map(|_| Overlay::default()).collect();
@@ -59,8 +84,8 @@ pub(super) fn overlays(book: &Workbook, reports: &[Report], names: &SheetNames, 
                 // One point: the request cell holds the predicted value itself, a number other cells can use.
                 cell = OutCell::number(pr.at.predicted, if r.status == Status::Ok { Style::Number } else { Style::Warning });
                 cell.note = Some(format!(
-                    "plumb request: {}\nPredicted {} from the fit {}: {}; mean at level {}: {} to {}; a new observation: {} to {}. Details on {}.",
-                    r.text.trim(), r.response, p.fit, pr.at.predicted, p.level, pr.at.mean_lower, pr.at.mean_upper, pr.at.new_lower, pr.at.new_upper, names.intervals
+                    "plumb request: {}\nPredicted {} from the fit {}: {}; {} confidence interval {} to {}; prediction interval {} to {}. Details on {}.",
+                    r.text.trim(), r.response, p.fit, short(pr.at.predicted), percent(p.level), short(pr.at.mean_lower), short(pr.at.mean_upper), short(pr.at.new_lower), short(pr.at.new_upper), names.intervals
                 ));
             }
         }

@@ -75,16 +75,36 @@ pub fn coefficients(path: &Path, fit: &str) -> Vec<Coef> {
         .collect()
 }
 
-/// A statistic of one fit from its Diagnostics block, by label.
+/// The Diagnostics sheet's fit columns: the header row (first cell "Fit")
+/// and the column of `fit` in it.
+fn diagnostics_column(t: &[Vec<Data>], fit: &str) -> Option<usize> {
+    let head = t.iter().find(|r| r.first().and_then(text) == Some("Fit"))?;
+    head.iter().position(|d| text(d) == Some(fit))
+}
+
+/// A statistic of one fit from the side-by-side blocks of Diagnostics, by
+/// its row label.
 pub fn statistic(path: &Path, fit: &str, label: &str) -> Option<f64> {
+    statistic_at(path, fit, label).map(|s| s.0)
+}
+
+/// A statistic of one fit by label, with the text on the line under it
+/// (the row or term it is about), if any.
+pub fn statistic_at(path: &Path, fit: &str, label: &str) -> Option<(f64, Option<String>)> {
     let t = table(path, "Diagnostics");
-    let title = format!("{fit} — ");
-    let start = t.iter().position(|r| r.first().and_then(text).is_some_and(|s| s.starts_with(&title)))?;
-    for r in &t[start + 1..] {
-        let Some(l) = r.first().and_then(text) else { break };
-        if l == label {
-            return r.get(1).and_then(num);
-        }
-    }
-    None
+    let col = diagnostics_column(&t, fit)?;
+    let at = t.iter().position(|r| r.first().and_then(text) == Some(label))?;
+    let value = t[at].get(col).and_then(num)?;
+    let below = t.get(at + 1).filter(|r| r.first().and_then(text).is_some_and(|l| l.trim() == "where")).and_then(|r| r.get(col)).and_then(text).map(str::to_string);
+    Some((value, below))
+}
+
+/// A cell of one fit's analysis-of-variance grid on Diagnostics: the row
+/// whose first cell starts with `source`, the column headed `column`.
+pub fn anova(path: &Path, fit: &str, source: &str, column: &str) -> Option<f64> {
+    let t = table(path, "Diagnostics");
+    let head = t.iter().position(|r| r.first().and_then(text) == Some(fit) && r.get(1).and_then(text) == Some("Degrees of freedom"))?;
+    let col = t[head].iter().position(|d| text(d) == Some(column))?;
+    let row = t[head + 1..head + 4].iter().find(|r| r.first().and_then(text).is_some_and(|l| l.starts_with(source)))?;
+    row.get(col).and_then(num)
 }
