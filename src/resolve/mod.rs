@@ -1,0 +1,299 @@
+//! From a parsed request to numbers a fit can use.
+//!
+//! This module finds request cells and resolves one request against the
+//! workbook: its output is a protocol [`FitRequest`] plus where the fit's
+//! per-row results belong ([`Placement`]), the rows left out and why
+//! ([`LeftOut`]), and the [`Recipe`] for predictions. This file holds the
+//! public API and runs the steps; each step has its own file:
+//!
+//! - `bind.rs`: the arguments against the function's spec;
+//! - `tables.rs`: the data table or ranges a request reads (its frame);
+//! - `eval.rs`: names, ranges, arithmetic and transforms over the frame;
+//! - `design.rs`: the rows used, the model columns and the recipe.
+
+// `Problem` is the crate's one error type and is returned by value by every
+// stage; boxing it is a decision for the whole crate, not for this module.
+#![allow(clippy::result_large_err)]
+
+mod bind;
+mod design;
+mod eval;
+mod tables;
+
+use self::eval::{referenced_names, Factor};
+use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
+use crate::problems::Problem;
+use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, PROTOCOL_VERSION};
+use crate::recipe::Recipe;
+use crate::syntax::{self, BinOp, Expr, ExprKind, RangeRef, Request, Span};
+use std::collections::{BTreeMap, HashSet};
+
+/// The most model columns one request may produce (after categorical
+/// expansion and products).
+pub const MAX_MODEL_COLUMNS: usize = 1000;
+
+/// A request cell found in the workbook.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FoundRequest {
+    /// Where it is.
+    pub cell: CellAddress,
+    /// Its text.
+    pub text: String,
+}
+
+/// Every cell whose text looks like a request, in sheet order then row-major.
+pub fn find_requests(book: &Workbook) -> Vec<FoundRequest> {
+    let mut out = Vec::new();
+    for g in &book.sheets {
+        for (r, c, v) in g.cells() {
+            if let Value::Text(t) = v {
+                if syntax::looks_like_request(t) {
+                    out.push(FoundRequest { cell: CellAddress::new(g.name.clone(), r, c), text: t.to_string() });
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Where a fit's per-row results go: the data rows of its table on a sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Placement {
+    /// Sheet of the data.
+    pub sheet: String,
+    /// The table's header row, when it has one.
+    pub header_row: Option<u32>,
+    /// The table's first and last column.
+    pub first_col: u32,
+    /// Last column of the table.
+    pub last_col: u32,
+    /// For each row sent to the fit, its absolute row on the sheet.
+    pub rows: Vec<u32>,
+    /// All data rows of the table (used or not), first and last.
+    pub first_row: u32,
+    /// Last data row.
+    pub last_row: u32,
+}
+
+/// Why rows were left out, with a count and the first cell of each reason.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct LeftOut {
+    /// (reason, rows, first cell) in a fixed order.
+    pub reasons: Vec<(String, usize, Option<CellAddress>)>,
+}
+
+impl LeftOut {
+    /// Total rows left out.
+    pub fn total(&self) -> usize {
+        self.reasons.iter().map(|r| r.1).sum()
+    }
+
+    /// One sentence, such as "3 rows left out: 2 with a blank cell (first
+    /// Weekly!C14), 1 with text in a numeric column (first Weekly!D40)".
+    pub fn describe(&self) -> Option<String> {
+        let total = self.total();
+        if total == 0 {
+            return None;
+        }
+        let parts: Vec<String> = self
+            .reasons
+            .iter()
+            .filter(|r| r.1 > 0)
+            .map(|(why, k, first)| match first {
+                Some(c) => format!("{k} {why} (first {c})"),
+                None => format!("{k} {why}"),
+            })
+            .collect();
+        Some(format!("{total} row{} left out: {}", if total == 1 { "" } else { "s" }, parts.join(", ")))
+    }
+}
+
+/// A request resolved into numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Resolved {
+    /// What the fit receives.
+    pub request: FitRequest,
+    /// The `name=` option, when given.
+    pub name: Option<String>,
+    /// The response as typed.
+    pub response_label: String,
+    /// The terms as typed.
+    pub terms: Vec<String>,
+    /// Where per-row results belong.
+    pub placement: Placement,
+    /// Rows left out and why.
+    pub left_out: LeftOut,
+    /// Warnings about the data (rows left out, …).
+    pub warnings: Vec<Problem>,
+    /// How the model columns are made from the inputs, for predictions;
+    /// `None` when a term names a column by a range rather than a header.
+    pub recipe: Option<Recipe>,
+}
+
+/// The cells a range covers on a grid, corners in order: its columns, and
+/// its rows (for whole columns such as `C:C`, the used rows of the sheet;
+/// row 0 alone on an empty sheet). The one reading of a range's rows for
+/// `data=`, one-column ranges and tables of new values.
+pub fn range_rows(grid: &Grid, r: &RangeRef) -> CellRange {
+    let (first_row, last_row) = match (r.start.row, r.end.row) {
+        (Some(a), Some(b)) => (a.min(b), a.max(b)),
+        _ => grid.extent().map(|e| (e.first_row, e.last_row)).unwrap_or((0, 0)),
+    };
+    CellRange { first_row, last_row, first_col: r.start.col.min(r.end.col), last_col: r.start.col.max(r.end.col) }
+}
+
+/// The resolver's context for one request.
+struct Ctx<'a> {
+    book: &'a Workbook,
+    cell: &'a CellAddress,
+    text: &'a str,
+}
+
+impl Ctx<'_> {
+    /// An error at the request's cell with a caret under `span`.
+    fn err(&self, span: Span, message: impl Into<String>) -> Problem {
+        Problem::error(message).at(self.cell.clone()).in_text(self.text, span.start, span.end)
+    }
+}
+
+/// The text a user typed for an expression, white space folded.
+fn typed(text: &str, span: Span) -> String {
+    text.get(span.start..span.end).unwrap_or("").split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
+/// Splits a model argument at its top-level `+` into terms.
+fn split_terms(e: &Expr, out: &mut Vec<Expr>) {
+    match &e.kind {
+        ExprKind::Binary { op: BinOp::Add, lhs, rhs } => {
+            split_terms(lhs, out);
+            split_terms(rhs, out);
+        }
+        _ => out.push(e.clone()),
+    }
+}
+
+/// Resolves one parsed request against the workbook for the function `spec`.
+///
+/// `requests` holds every request cell of the workbook, so that tables are
+/// detected without them.
+pub fn resolve(
+    book: &Workbook,
+    cell: &CellAddress,
+    text: &str,
+    req: &Request,
+    spec: &FunctionSpec,
+    requests: &HashSet<CellAddress>,
+) -> Result<Resolved, Problem> {
+    let ctx = Ctx { book, cell, text };
+    let end = bind::end_of(req);
+    // 1. Arguments against the spec.
+    let bind::Args { positional, named, groups, options } = bind::bind_args(&ctx, req, spec)?;
+    // 2. The options the host applies itself.
+    let level = match options.get("level") {
+        Some(OptionValue::Number(x)) => *x,
+        _ => 0.95,
+    };
+    if !(level > 0.0 && level < 1.0) {
+        let span = named.get("level").map(|v| v.0.span).unwrap_or(end);
+        return Err(ctx.err(span, format!("level={level} is not between 0 and 1")).help("write the confidence level as a fraction, such as level=0.95"));
+    }
+    let intercept = !matches!(options.get("intercept"), Some(OptionValue::Text(t)) if t == "no");
+    let stop_on_missing = matches!(options.get("missing"), Some(OptionValue::Text(t)) if t == "stop");
+    let name = match options.get("name") {
+        Some(OptionValue::Text(t)) => Some(t.clone()),
+        _ => None,
+    };
+    let bases: BTreeMap<String, String> =
+        groups.get("base").map(|g| g.iter().map(|(k, v)| (k.clone(), v.0.clone())).collect()).unwrap_or_default();
+
+    // 3. The frame: the data table, or the rows of the ranges used.
+    let response_expr = positional[0];
+    let terms_expr = positional.get(1).copied();
+    let weights_expr = named.get("weights").map(|v| v.0);
+    let mut names = Vec::new();
+    for e in [Some(response_expr), terms_expr, weights_expr].into_iter().flatten() {
+        referenced_names(e, &mut names);
+    }
+    let columns: Vec<&Expr> = [Some(response_expr), terms_expr].into_iter().flatten().collect();
+    let frame = ctx.frame(req, named.get("data").map(|v| v.0), &names, &columns, requests)?;
+
+    // 4. Evaluate.
+    let response = match ctx.eval(response_expr, &frame)? {
+        Factor::Num(_, v) => v,
+        _ => {
+            return Err(ctx
+                .err(response_expr.span, format!("the response '{}' is a text column; #{} needs numbers", typed(text, response_expr.span), spec.name))
+                .help("choose a numeric column as the response"))
+        }
+    };
+    let mut term_exprs = Vec::new();
+    if let Some(t) = terms_expr {
+        split_terms(t, &mut term_exprs);
+    }
+    for t in &term_exprs {
+        if let ExprKind::Binary { op: BinOp::Sub, .. } = t.kind {
+            return Err(ctx.err(t.span, "terms are joined by +; a difference must be in parentheses").help(format!("write ({}) to use the difference as one term", typed(text, t.span))));
+        }
+        if let ExprKind::Number(_) = t.kind {
+            return Err(ctx.err(t.span, "a number is not a term").help("the intercept is fitted unless intercept=no"));
+        }
+    }
+    let mut factors = Vec::new();
+    for t in &term_exprs {
+        factors.push((typed(text, t.span), t.span, ctx.eval(t, &frame)?));
+    }
+    let weights = match weights_expr {
+        Some(w) => Some(ctx.numeric(w, &frame)?),
+        None => None,
+    };
+
+    // 5. Missing rows.
+    let design::Rows { keep, left_out } =
+        design::usable_rows(&ctx, &frame, &response, &factors, weights.as_ref().map(|w| (w, weights_expr)), end, stop_on_missing, req.span)?;
+
+    // 6. Model columns on the kept rows.
+    let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+    let columns = design::model_columns(&ctx, &factors, &keep, &bases)?;
+    let p = columns.len() + usize::from(intercept);
+    if keep.len() <= p {
+        let lost = left_out.describe().map(|d| format!(" ({d})")).unwrap_or_default();
+        return Err(ctx
+            .err(req.span, format!("{} rows are usable{lost}, but the model has {p} parameters; least squares needs more rows than parameters", keep.len()))
+            .help("add data rows or use fewer terms"));
+    }
+    let mut warnings = Vec::new();
+    if let Some(d) = left_out.describe() {
+        warnings.push(Problem::warning(d).at(cell.clone()));
+    }
+    let request = FitRequest {
+        protocol: PROTOCOL_VERSION,
+        function: spec.name.clone(),
+        response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
+        columns,
+        intercept,
+        weights: weights.as_ref().map(|w| pick(&w.values)),
+        level,
+        expression: None,
+        options: options.into_iter().filter(|(k, _)| !["name", "level", "intercept", "weights", "missing", "data", "base"].contains(&k.as_str())).collect(),
+    };
+    let placement = Placement {
+        sheet: frame.grid.name.clone(),
+        header_row: frame.header_row,
+        first_col: frame.first_col,
+        last_col: frame.last_col,
+        rows: keep.iter().map(|&i| frame.rows[i]).collect(),
+        first_row: frame.rows[0],
+        last_row: *frame.rows.last().unwrap_or(&frame.rows[0]),
+    };
+    let recipe = design::build_recipe(&frame, &keep, &term_exprs, &bases, intercept, &request.columns);
+    Ok(Resolved {
+        recipe,
+        request,
+        name,
+        response_label: typed(text, response_expr.span),
+        terms: term_exprs.iter().map(|t| typed(text, t.span)).collect(),
+        placement,
+        left_out,
+        warnings,
+    })
+}
