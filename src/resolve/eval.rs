@@ -8,7 +8,7 @@
 //! an unknown header, a text column in arithmetic or an unknown transform.
 
 use super::tables::Frame;
-use super::{typed, Ctx};
+use super::{typed, Ctx, Here};
 use crate::cells::{CellAddress, Grid, Value};
 use crate::problems::{closest, Problem};
 use crate::protocol::Function;
@@ -55,6 +55,20 @@ const MAX_POWER: f64 = 30.0;
 /// The transforms a term may use: the functions of the fit language that a
 /// prediction recipe can rebuild.
 pub(super) const TRANSFORMS: [Function; 5] = [Function::Log, Function::Log10, Function::Exp, Function::Sqrt, Function::Abs];
+
+/// Every function a model expression may call: each [`Function`], for the
+/// list shown when a name is none of them.
+pub(super) const ALL_FUNCTIONS: [Function; 9] = [
+    Function::Log,
+    Function::Log10,
+    Function::Exp,
+    Function::Sqrt,
+    Function::Abs,
+    Function::Sin,
+    Function::Cos,
+    Function::Tan,
+    Function::Atan,
+];
 
 impl Num {
     fn merge_why(&mut self, other: &Num) {
@@ -169,7 +183,7 @@ pub(super) fn has_ranges(e: &Expr) -> Option<RangeRef> {
 
 /// The error for a function name that is not one of `allowed`, with the
 /// closest names as suggestions.
-pub(super) fn unknown_function(ctx: &Ctx, name: &crate::syntax::Ident, allowed: &[Function]) -> Problem {
+pub(super) fn unknown_function(at: &Here, name: &crate::syntax::Ident, allowed: &[Function]) -> Problem {
     let names: Vec<&str> = allowed.iter().map(|f| f.name()).collect();
     let near = closest(&name.name.to_lowercase(), names.iter().copied());
     let help = if near.is_empty() {
@@ -177,7 +191,7 @@ pub(super) fn unknown_function(ctx: &Ctx, name: &crate::syntax::Ident, allowed: 
     } else {
         format!("did you mean {}? The functions are {}", near.join(" or "), names.join(", "))
     };
-    ctx.err(name.span, format!("'{}' is not a function of the fit language", name.name)).help(help)
+    at.err(name.span, format!("'{}' is not a function of the fit language", name.name)).help(help)
 }
 
 impl Ctx<'_> {
@@ -271,7 +285,7 @@ impl Ctx<'_> {
             }
             ExprKind::Call { name, args } => {
                 let Some(f) = Function::from_name(&name.name).filter(|f| TRANSFORMS.contains(f)) else {
-                    return Err(unknown_function(self, name, &TRANSFORMS));
+                    return Err(unknown_function(&self.here(), name, &TRANSFORMS));
                 };
                 if args.len() != 1 {
                     return Err(self.err(e.span, format!("{}(…) takes exactly one argument", f.name())));

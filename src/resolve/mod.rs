@@ -20,6 +20,7 @@ mod design;
 mod eval;
 mod tables;
 
+pub use self::bind::{bind, is_catch_all, parameter_group, Bound, BoundArg, BoundExpression, BoundValue, ExprColumn, GroupEntry, Place};
 use self::eval::{referenced_names, Factor};
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::Problem;
@@ -142,6 +143,37 @@ pub fn range_rows(grid: &Grid, r: &RangeRef) -> CellRange {
     CellRange { first_row, last_row, first_col: r.start.col.min(r.end.col), last_col: r.start.col.max(r.end.col) }
 }
 
+/// The options the host applies itself: their meaning is a field of the
+/// [`FitRequest`] or a step of resolution, so they are never repeated in
+/// [`FitRequest::options`]. `name` names the fit for other requests,
+/// `level` is [`FitRequest::level`], `intercept` is
+/// [`FitRequest::intercept`], `weights` (a column) is
+/// [`FitRequest::weights`], `missing` says whether rows with unusable cells
+/// are left out or stop the request, `data` chooses the table, and
+/// `base(...)` the base level of text columns.
+pub const HOST_OPTIONS: [&str; 7] = [NAME, LEVEL, INTERCEPT, WEIGHTS, MISSING, DATA, BASE];
+const NAME: &str = "name";
+const LEVEL: &str = "level";
+const INTERCEPT: &str = "intercept";
+const WEIGHTS: &str = "weights";
+const MISSING: &str = "missing";
+const DATA: &str = "data";
+const BASE: &str = "base";
+
+/// Where a request is: its cell and text, for errors with a caret.
+#[derive(Clone, Copy)]
+struct Here<'a> {
+    cell: &'a CellAddress,
+    text: &'a str,
+}
+
+impl Here<'_> {
+    /// An error at the request's cell with a caret under `span`.
+    fn err(&self, span: Span, message: impl Into<String>) -> Problem {
+        Problem::error(message).at(self.cell.clone()).in_text(self.text, span.start, span.end)
+    }
+}
+
 /// The resolver's context for one request.
 struct Ctx<'a> {
     book: &'a Workbook,
@@ -150,9 +182,14 @@ struct Ctx<'a> {
 }
 
 impl Ctx<'_> {
+    /// The request's place.
+    fn here(&self) -> Here<'_> {
+        Here { cell: self.cell, text: self.text }
+    }
+
     /// An error at the request's cell with a caret under `span`.
     fn err(&self, span: Span, message: impl Into<String>) -> Problem {
-        Problem::error(message).at(self.cell.clone()).in_text(self.text, span.start, span.end)
+        self.here().err(span, message)
     }
 }
 
@@ -172,6 +209,91 @@ fn split_terms(e: &Expr, out: &mut Vec<Expr>) {
     }
 }
 
+/// The host's options of one request, read from its bound arguments.
+struct HostOptions<'b> {
+    name: Option<String>,
+    level: f64,
+    intercept: bool,
+    stop_on_missing: bool,
+    /// `base(...)`: lowercase column name → base level.
+    bases: BTreeMap<String, String>,
+    weights: Option<&'b Expr>,
+    data: Option<(&'b Place, Span)>,
+}
+
+impl<'b> HostOptions<'b> {
+    fn of(at: &Here, bound: &'b Bound) -> Result<Self, Problem> {
+        let values = &bound.values;
+        let level = match values.get(LEVEL) {
+            Some(OptionValue::Number(x)) => *x,
+            _ => 0.95,
+        };
+        if !(level > 0.0 && level < 1.0) {
+            let span = bound.option(LEVEL).map(|o| o.value_span).unwrap_or(bound.end);
+            return Err(at.err(span, format!("level={level} is not between 0 and 1")).help("write the confidence level as a fraction, such as level=0.95"));
+        }
+        let bases = match bound.option(BASE).map(|o| &o.value) {
+            Some(BoundValue::Group(entries)) => entries
+                .iter()
+                .map(|e| {
+                    let level = match &e.value {
+                        OptionValue::Number(x) => format!("{x}"),
+                        OptionValue::Text(t) => t.clone(),
+                        OptionValue::Group(_) => String::new(),
+                    };
+                    (e.key.to_lowercase(), level)
+                })
+                .collect(),
+            _ => BTreeMap::new(),
+        };
+        Ok(HostOptions {
+            name: match values.get(NAME) {
+                Some(OptionValue::Text(t)) => Some(t.clone()),
+                _ => None,
+            },
+            level,
+            intercept: !matches!(values.get(INTERCEPT), Some(OptionValue::Text(t)) if t == "no"),
+            stop_on_missing: matches!(values.get(MISSING), Some(OptionValue::Text(t)) if t == "stop"),
+            bases,
+            weights: match bound.option(WEIGHTS).map(|o| &o.value) {
+                Some(BoundValue::Column(e)) => Some(e),
+                _ => None,
+            },
+            data: bound.option(DATA).and_then(|o| match &o.value {
+                BoundValue::Range(p) => Some((p, o.value_span)),
+                _ => None,
+            }),
+        })
+    }
+}
+
+/// What the positional arguments are to the model, by their kinds: the
+/// first column is the response; the terms of a terms argument, and of any
+/// later column argument (split at `+` as terms are), are the model's terms.
+struct Roles<'b> {
+    response: &'b Expr,
+    terms: Vec<Expr>,
+}
+
+impl<'b> Roles<'b> {
+    fn of(at: &Here, spec: &FunctionSpec, req: &Request, bound: &'b Bound) -> Result<Self, Problem> {
+        let mut response = None;
+        let mut terms = Vec::new();
+        for a in &bound.positional {
+            match &a.value {
+                BoundValue::Column(e) if response.is_none() => response = Some(e),
+                BoundValue::Column(e) => terms.extend(bind::terms_of(at, e)?),
+                BoundValue::Terms(t) => terms.extend(t.iter().cloned()),
+                _ => {}
+            }
+        }
+        let Some(response) = response else {
+            return Err(at.err(req.span, format!("#{} declares no column argument to explain", spec.name)).help("a fit's first column argument is its response"));
+        };
+        Ok(Roles { response, terms })
+    }
+}
+
 /// Resolves one parsed request against the workbook for the function `spec`.
 ///
 /// `requests` holds every request cell of the workbook, so that tables are
@@ -185,39 +307,22 @@ pub fn resolve(
     requests: &HashSet<CellAddress>,
 ) -> Result<Resolved, Problem> {
     let ctx = Ctx { book, cell, text };
-    let end = bind::end_of(req);
-    // 1. Arguments against the spec.
-    let bind::Args { positional, named, groups, options } = bind::bind_args(&ctx, req, spec)?;
-    // 2. The options the host applies itself.
-    let level = match options.get("level") {
-        Some(OptionValue::Number(x)) => *x,
-        _ => 0.95,
-    };
-    if !(level > 0.0 && level < 1.0) {
-        let span = named.get("level").map(|v| v.0.span).unwrap_or(end);
-        return Err(ctx.err(span, format!("level={level} is not between 0 and 1")).help("write the confidence level as a fraction, such as level=0.95"));
-    }
-    let intercept = !matches!(options.get("intercept"), Some(OptionValue::Text(t)) if t == "no");
-    let stop_on_missing = matches!(options.get("missing"), Some(OptionValue::Text(t)) if t == "stop");
-    let name = match options.get("name") {
-        Some(OptionValue::Text(t)) => Some(t.clone()),
-        _ => None,
-    };
-    let bases: BTreeMap<String, String> =
-        groups.get("base").map(|g| g.iter().map(|(k, v)| (k.clone(), v.0.clone())).collect()).unwrap_or_default();
+    let here = ctx.here();
+    // 1. Arguments against the spec, by kind; their roles.
+    let bound = bind::bind_at(&here, spec, req)?;
+    let host = HostOptions::of(&here, &bound)?;
+    let roles = Roles::of(&here, spec, req, &bound)?;
+    let (response_expr, term_exprs) = (roles.response, &roles.terms);
 
-    // 3. The frame: the data table, or the rows of the ranges used.
-    let response_expr = positional[0];
-    let terms_expr = positional.get(1).copied();
-    let weights_expr = named.get("weights").map(|v| v.0);
+    // 2. The frame: the data table, or the rows of the ranges used.
     let mut names = Vec::new();
-    for e in [Some(response_expr), terms_expr, weights_expr].into_iter().flatten() {
+    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights) {
         referenced_names(e, &mut names);
     }
-    let columns: Vec<&Expr> = [Some(response_expr), terms_expr].into_iter().flatten().collect();
-    let frame = ctx.frame(req, named.get("data").map(|v| v.0), &names, &columns, requests)?;
+    let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).collect();
+    let frame = ctx.frame(req, host.data, &names, &columns, requests)?;
 
-    // 4. Evaluate.
+    // 3. Evaluate.
     let response = match ctx.eval(response_expr, &frame)? {
         Factor::Num(_, v) => v,
         _ => {
@@ -226,35 +331,23 @@ pub fn resolve(
                 .help("choose a numeric column as the response"))
         }
     };
-    let mut term_exprs = Vec::new();
-    if let Some(t) = terms_expr {
-        split_terms(t, &mut term_exprs);
-    }
-    for t in &term_exprs {
-        if let ExprKind::Binary { op: BinOp::Sub, .. } = t.kind {
-            return Err(ctx.err(t.span, "terms are joined by +; a difference must be in parentheses").help(format!("write ({}) to use the difference as one term", typed(text, t.span))));
-        }
-        if let ExprKind::Number(_) = t.kind {
-            return Err(ctx.err(t.span, "a number is not a term").help("the intercept is fitted unless intercept=no"));
-        }
-    }
     let mut factors = Vec::new();
-    for t in &term_exprs {
+    for t in term_exprs {
         factors.push((typed(text, t.span), t.span, ctx.eval(t, &frame)?));
     }
-    let weights = match weights_expr {
+    let weights = match host.weights {
         Some(w) => Some(ctx.numeric(w, &frame)?),
         None => None,
     };
 
-    // 5. Missing rows.
+    // 4. Missing rows.
     let design::Rows { keep, left_out } =
-        design::usable_rows(&ctx, &frame, &response, &factors, weights.as_ref().map(|w| (w, weights_expr)), end, stop_on_missing, req.span)?;
+        design::usable_rows(&ctx, &frame, &response, &factors, weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
 
-    // 6. Model columns on the kept rows.
+    // 5. Model columns on the kept rows.
     let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
-    let columns = design::model_columns(&ctx, &factors, &keep, &bases)?;
-    let p = columns.len() + usize::from(intercept);
+    let columns = design::model_columns(&ctx, &factors, &keep, &host.bases)?;
+    let p = columns.len() + usize::from(host.intercept);
     if keep.len() <= p {
         let lost = left_out.describe().map(|d| format!(" ({d})")).unwrap_or_default();
         return Err(ctx
@@ -270,11 +363,11 @@ pub fn resolve(
         function: spec.name.clone(),
         response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
         columns,
-        intercept,
+        intercept: host.intercept,
         weights: weights.as_ref().map(|w| pick(&w.values)),
-        level,
+        level: host.level,
         expression: None,
-        options: options.into_iter().filter(|(k, _)| !["name", "level", "intercept", "weights", "missing", "data", "base"].contains(&k.as_str())).collect(),
+        options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
     };
     let placement = Placement {
         sheet: frame.grid.name.clone(),
@@ -285,11 +378,11 @@ pub fn resolve(
         first_row: frame.rows[0],
         last_row: *frame.rows.last().unwrap_or(&frame.rows[0]),
     };
-    let recipe = design::build_recipe(&frame, &keep, &term_exprs, &bases, intercept, &request.columns);
+    let recipe = design::build_recipe(&frame, &keep, term_exprs, &host.bases, host.intercept, &request.columns);
     Ok(Resolved {
         recipe,
         request,
-        name,
+        name: host.name,
         response_label: typed(text, response_expr.span),
         terms: term_exprs.iter().map(|t| typed(text, t.span)).collect(),
         placement,
@@ -297,3 +390,6 @@ pub fn resolve(
         warnings,
     })
 }
+
+#[cfg(test)]
+mod tests;

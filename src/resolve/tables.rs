@@ -7,10 +7,10 @@
 //! cover, and sheet lookup with suggestions.
 
 use super::eval::has_ranges;
-use super::{range_rows, Ctx};
+use super::{range_rows, Ctx, Place};
 use crate::cells::{CellAddress, CellRange, Grid, Value};
 use crate::problems::{closest, Problem};
-use crate::syntax::{Expr, ExprKind, RangeRef, Request, Span};
+use crate::syntax::{Expr, RangeRef, Request, Span};
 use std::collections::{BTreeMap, HashSet};
 
 /// Rows of one request: an absolute sheet row per frame row.
@@ -203,7 +203,7 @@ impl Ctx<'_> {
     pub(super) fn frame(
         &self,
         req: &Request,
-        data: Option<&Expr>,
+        data: Option<(&Place, Span)>,
         names: &[String],
         columns: &[&Expr],
         requests: &HashSet<CellAddress>,
@@ -211,21 +211,20 @@ impl Ctx<'_> {
         let cell = self.cell;
         let request_cells: HashSet<(u32, u32)> = requests.iter().map(|c| (c.row, c.col)).collect();
         let frame = match data {
-            Some(value) => {
-                let (grid, range) = match &value.kind {
-                    ExprKind::Name(s) | ExprKind::SheetName(s) | ExprKind::Quoted(s) => (self.sheet(s, value.span)?, None),
-                    ExprKind::Range(r) => {
-                        let grid = self.sheet(r.sheet.as_deref().unwrap_or(&cell.sheet), value.span)?;
+            Some((place, span)) => {
+                let (grid, range) = match place {
+                    Place::Sheet(s) => (self.sheet(s, span)?, None),
+                    Place::Range(r) => {
+                        let grid = self.sheet(r.sheet.as_deref().unwrap_or(&cell.sheet), span)?;
                         (grid, Some(range_rows(grid, r)))
                     }
-                    _ => return Err(self.err(value.span, "data= takes a sheet name or a range, such as data=Sheet2 or data=Sheet2!A1:F500")),
                 };
                 let t = match range {
                     Some(t) => t,
                     None => {
                         let same_sheet = grid.name == cell.sheet;
                         let excl = if same_sheet { request_cells.clone() } else { HashSet::new() };
-                        pick_table(grid, &excl, names).ok_or_else(|| self.err(value.span, format!("the sheet '{}' has no table", grid.name)))?
+                        pick_table(grid, &excl, names).ok_or_else(|| self.err(span, format!("the sheet '{}' has no table", grid.name)))?
                     }
                 };
                 Frame::table(grid, t)
