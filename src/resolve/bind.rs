@@ -266,9 +266,12 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
     }
     // 2. Option values by kind, in the spec's order; then the positional
     // arguments and the catch-all pairs.
-    let parameters: Vec<(String, Span)> = match params {
-        Some(p) => parameter_list(at, p, groups.iter().find(|g| std::ptr::eq(g.0, p)).map(|g| g.2.as_slice()).unwrap_or(&[]))?,
-        None => Vec::new(),
+    let parameters = Params {
+        group: params.map(|p| p.name.as_str()),
+        list: match params {
+            Some(p) => parameter_list(at, p, groups.iter().find(|g| std::ptr::eq(g.0, p)).map(|g| g.2.as_slice()).unwrap_or(&[]))?,
+            None => Vec::new(),
+        },
     };
     let mut values: BTreeMap<String, OptionValue> = BTreeMap::new();
     let mut options = Vec::new();
@@ -346,6 +349,13 @@ fn parameter_list(at: &Here, group: &ParamSpec, entries: &[GroupEntry]) -> Resul
     Ok(out)
 }
 
+/// The parameters of a spec's model expression: the group that declares
+/// them and the names given in it, with their spans.
+struct Params<'a> {
+    group: Option<&'a str>,
+    list: Vec<(String, Span)>,
+}
+
 /// Where a value stands, for the wording of errors.
 #[derive(Clone, Copy)]
 enum Role<'a> {
@@ -358,7 +368,7 @@ enum Role<'a> {
 }
 
 /// Binds one value by its parameter's kind.
-fn bind_value(at: &Here, function: &str, p: &ParamSpec, value: &Expr, role: Role, parameters: &[(String, Span)]) -> Result<BoundValue, Problem> {
+fn bind_value(at: &Here, function: &str, p: &ParamSpec, value: &Expr, role: Role, parameters: &Params) -> Result<BoundValue, Problem> {
     let name = match role {
         Role::Pair(key) => key,
         _ => p.name.as_str(),
@@ -446,7 +456,15 @@ pub(super) fn terms_of(at: &Here, e: &Expr) -> Result<Vec<Expr>, Problem> {
 /// Binds a model expression: parameters by name, every other name a
 /// column, its formula built; unknown functions and parameters the model
 /// never uses are errors.
-fn bind_expression(at: &Here, e: &Expr, parameters: &[(String, Span)]) -> Result<BoundExpression, Problem> {
+fn bind_expression(at: &Here, e: &Expr, params: &Params) -> Result<BoundExpression, Problem> {
+    let parameters = params.list.as_slice();
+    if parameters.is_empty() {
+        let help = match params.group {
+            Some(g) => format!("give each parameter a starting value in {g}(…), such as {g}(a=1, k=0.1)"),
+            None => "this function declares no group option for its parameters".to_string(),
+        };
+        return Err(at.err(e.span, format!("the model {} has no parameters", typed(at.text, e.span))).help(help));
+    }
     let mut used = vec![false; parameters.len()];
     let mut columns: Vec<(String, ExprColumn)> = Vec::new();
     let formula = formula_of(at, e, parameters, &mut used, &mut columns)?;
@@ -454,7 +472,7 @@ fn bind_expression(at: &Here, e: &Expr, parameters: &[(String, Span)]) -> Result
         let (p, span) = &parameters[i];
         return Err(at
             .err(*span, format!("the parameter {p} is not used in the model {}", typed(at.text, e.span)))
-            .help(format!("use {p} in the model, or leave it out of the starting values")));
+            .help(format!("use {p} in the model, or leave it out of {}(…)", params.group.unwrap_or("the parameters"))));
     }
     Ok(BoundExpression {
         text: typed(at.text, e.span),

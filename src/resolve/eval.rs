@@ -8,7 +8,7 @@
 //! an unknown header, a text column in arithmetic or an unknown transform.
 
 use super::tables::Frame;
-use super::{typed, Ctx, Here};
+use super::{typed, Ctx, ExprColumn, Here};
 use crate::cells::{CellAddress, Grid, Value};
 use crate::problems::{closest, Problem};
 use crate::protocol::Function;
@@ -327,6 +327,26 @@ impl Ctx<'_> {
                 .err(e.span, "a product with a text column cannot be used in arithmetic")
                 .help("use it as a term on its own")),
         }
+    }
+
+    /// The values of a column a model expression uses. A name that is no
+    /// header is neither a column nor one of the `parameters` (declared in
+    /// `group`): the error suggests the closest of both.
+    pub(super) fn expression_column(&self, col: &ExprColumn, frame: &Frame, parameters: &[String], group: &str) -> Result<Num, Problem> {
+        let e = &col.expr;
+        if let ExprKind::Name(n) | ExprKind::Quoted(n) = &e.kind {
+            if !frame.headers.contains_key(&n.trim().to_lowercase()) {
+                let candidates = frame.header_names.iter().chain(parameters).map(|s| s.as_str());
+                let near = closest(n.trim(), candidates);
+                let known = format!("The headers are {}; the parameters are {}", frame.header_names.join(", "), parameters.join(", "));
+                let help = if near.is_empty() { known } else { format!("did you mean {}? {known}", near.join(" or ")) };
+                let where_ = format!("the table {}!{}", crate::cells::quote_sheet_name(&frame.grid.name), frame.range());
+                return Err(self
+                    .err(e.span, format!("there is no column headed '{}' in {where_}, and no parameter of that name in {group}(…)", n.trim()))
+                    .help(help));
+            }
+        }
+        self.numeric(e, frame)
     }
 
     fn unknown_column(&self, name: &str, span: Span, frame: &Frame) -> Problem {

@@ -24,7 +24,7 @@ pub use self::bind::{bind, is_catch_all, parameter_group, Bound, BoundArg, Bound
 use self::eval::{referenced_names, Factor};
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::Problem;
-use crate::protocol::{Column, FitRequest, FunctionSpec, OptionValue, PROTOCOL_VERSION};
+use crate::protocol::{Column, FitRequest, FunctionSpec, ModelExpression, OptionValue, PROTOCOL_VERSION};
 use crate::recipe::Recipe;
 use crate::syntax::{self, BinOp, Expr, ExprKind, RangeRef, Request, Span};
 use std::collections::{BTreeMap, HashSet};
@@ -118,7 +118,8 @@ pub struct Resolved {
     pub name: Option<String>,
     /// The response as typed.
     pub response_label: String,
-    /// The terms as typed.
+    /// The terms as typed (a model expression, when the function takes
+    /// one, first).
     pub terms: Vec<String>,
     /// Where per-row results belong.
     pub placement: Placement,
@@ -270,9 +271,12 @@ impl<'b> HostOptions<'b> {
 /// What the positional arguments are to the model, by their kinds: the
 /// first column is the response; the terms of a terms argument, and of any
 /// later column argument (split at `+` as terms are), are the model's terms.
+/// A model expression argument, of a positional or an option, is the
+/// model with parameters.
 struct Roles<'b> {
     response: &'b Expr,
     terms: Vec<Expr>,
+    expression: Option<&'b BoundExpression>,
 }
 
 impl<'b> Roles<'b> {
@@ -290,7 +294,11 @@ impl<'b> Roles<'b> {
         let Some(response) = response else {
             return Err(at.err(req.span, format!("#{} declares no column argument to explain", spec.name)).help("a fit's first column argument is its response"));
         };
-        Ok(Roles { response, terms })
+        let expression = bound.positional.iter().chain(&bound.options).find_map(|a| match &a.value {
+            BoundValue::Expression(x) => Some(x),
+            _ => None,
+        });
+        Ok(Roles { response, terms, expression })
     }
 }
 
@@ -313,13 +321,14 @@ pub fn resolve(
     let host = HostOptions::of(&here, &bound)?;
     let roles = Roles::of(&here, spec, req, &bound)?;
     let (response_expr, term_exprs) = (roles.response, &roles.terms);
+    let expression_columns: Vec<&Expr> = roles.expression.iter().flat_map(|x| x.columns.iter().map(|c| &c.expr)).collect();
 
     // 2. The frame: the data table, or the rows of the ranges used.
     let mut names = Vec::new();
-    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights) {
+    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()) {
         referenced_names(e, &mut names);
     }
-    let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).collect();
+    let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).chain(expression_columns.iter().copied()).collect();
     let frame = ctx.frame(req, host.data, &names, &columns, requests)?;
 
     // 3. Evaluate.
@@ -331,6 +340,16 @@ pub fn resolve(
                 .help("choose a numeric column as the response"))
         }
     };
+    // The expression's columns first: they are the first request columns.
+    let mut inputs = Vec::new();
+    if let Some(x) = roles.expression {
+        let parameters: Vec<String> = x.parameters.iter().map(|p| p.0.clone()).collect();
+        let group = bind::parameter_group(spec).map_or("start", |g| g.name.as_str());
+        for c in &x.columns {
+            let v = ctx.expression_column(c, &frame, &parameters, group)?;
+            inputs.push((c.label.clone(), c.expr.span, Factor::Num(c.label.clone(), v)));
+        }
+    }
     let mut factors = Vec::new();
     for t in term_exprs {
         factors.push((typed(text, t.span), t.span, ctx.eval(t, &frame)?));
@@ -341,13 +360,20 @@ pub fn resolve(
     };
 
     // 4. Missing rows.
+    let used: Vec<design::Term> = inputs.iter().chain(&factors).cloned().collect();
     let design::Rows { keep, left_out } =
-        design::usable_rows(&ctx, &frame, &response, &factors, weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
+        design::usable_rows(&ctx, &frame, &response, &used, weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
 
-    // 5. Model columns on the kept rows.
+    // 5. Model columns on the kept rows: the expression's columns, then the
+    // terms' columns.
     let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
-    let columns = design::model_columns(&ctx, &factors, &keep, &host.bases)?;
-    let p = columns.len() + usize::from(host.intercept);
+    let mut columns = design::model_columns(&ctx, &inputs, &keep, &host.bases)?;
+    let term_columns = design::model_columns(&ctx, &factors, &keep, &host.bases)?;
+    // A model expression has its own constant, if any: an intercept only
+    // when the spec has the option.
+    let intercept = host.intercept && (roles.expression.is_none() || spec.option(INTERCEPT).is_some());
+    let p = term_columns.len() + usize::from(intercept) + roles.expression.map_or(0, |x| x.parameters.len());
+    columns.extend(term_columns);
     if keep.len() <= p {
         let lost = left_out.describe().map(|d| format!(" ({d})")).unwrap_or_default();
         return Err(ctx
@@ -363,10 +389,14 @@ pub fn resolve(
         function: spec.name.clone(),
         response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
         columns,
-        intercept: host.intercept,
+        intercept,
         weights: weights.as_ref().map(|w| pick(&w.values)),
         level: host.level,
-        expression: None,
+        expression: roles.expression.map(|x| ModelExpression {
+            text: x.text.clone(),
+            formula: x.formula.clone(),
+            parameters: x.parameters.iter().map(|p| p.0.clone()).collect(),
+        }),
         options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
     };
     let placement = Placement {
@@ -378,13 +408,18 @@ pub fn resolve(
         first_row: frame.rows[0],
         last_row: *frame.rows.last().unwrap_or(&frame.rows[0]),
     };
-    let recipe = design::build_recipe(&frame, &keep, term_exprs, &host.bases, host.intercept, &request.columns);
+    // A recipe rebuilds linear model rows; a model expression is its own.
+    let recipe = match roles.expression {
+        None => design::build_recipe(&frame, &keep, term_exprs, &host.bases, intercept, &request.columns),
+        Some(_) => None,
+    };
+    let terms = roles.expression.map(|x| x.text.clone()).into_iter().chain(term_exprs.iter().map(|t| typed(text, t.span))).collect();
     Ok(Resolved {
         recipe,
         request,
         name: host.name,
         response_label: typed(text, response_expr.span),
-        terms: term_exprs.iter().map(|t| typed(text, t.span)).collect(),
+        terms,
         placement,
         left_out,
         warnings,

@@ -3,7 +3,7 @@
 
 use super::*;
 use crate::fits::{host_functions, Registry};
-use crate::protocol::{ParamKind, ParamSpec};
+use crate::protocol::{Formula, ParamKind, ParamSpec};
 use crate::syntax::parse_request;
 
 /// A sheet "Data" with a table: Hours, Level (a decay), Bay (text), Light;
@@ -63,6 +63,17 @@ fn slice(text: &str, span: Span) -> &str {
 /// The request text and caret lines of a problem.
 fn carets(p: &Problem) -> String {
     p.caret_lines()
+}
+
+/// The caret lines for the first `needle` in `text` (ASCII text).
+fn carets_under(text: &str, needle: &str) -> String {
+    carets_width(text, needle, needle.len())
+}
+
+/// The caret lines for the first `width` characters of the first `needle`.
+fn carets_width(text: &str, needle: &str, width: usize) -> String {
+    let at = text.find(needle).expect("the needle is in the text");
+    format!("    {text}\n    {}{}\n", " ".repeat(at), "^".repeat(width))
 }
 
 #[test]
@@ -188,4 +199,132 @@ fn a_second_column_argument_gives_the_model_its_columns() {
     assert_eq!(r.request.columns.iter().map(|c| c.name.as_str()).collect::<Vec<_>>(), ["Hours"]);
     assert_eq!(r.terms, ["Hours"]);
     assert_eq!(r.request.options.get("degree"), Some(&OptionValue::Number(2.0)));
+}
+
+/// `#curve(response, model, start(…))`: a test-only fit of a model with
+/// parameters, as a plugin would declare it.
+fn curve() -> FunctionSpec {
+    let opt = |name: &str, kind: ParamKind, default: Option<&str>, choices: &[&str]| ParamSpec {
+        required: false,
+        default: default.map(Into::into),
+        choices: choices.iter().map(|c| c.to_string()).collect(),
+        ..param(name, kind, "")
+    };
+    FunctionSpec {
+        name: "curve".into(),
+        help: "a test fit of a model with parameters".into(),
+        positional: vec![param("response", ParamKind::Column, "the column to explain"), param("model", ParamKind::Expression, "the model, such as a*exp(-k*Hours)")],
+        options: vec![
+            opt("start", ParamKind::Group, None, &[]),
+            opt("name", ParamKind::Text, None, &[]),
+            opt("level", ParamKind::Number, Some("0.95"), &[]),
+            opt("missing", ParamKind::Choice, Some("skip"), &["skip", "stop"]),
+            opt("data", ParamKind::Range, None, &[]),
+            opt("weights", ParamKind::Column, None, &[]),
+        ],
+    }
+}
+
+#[test]
+fn start_values_reach_the_fit_as_a_group_of_numbers() {
+    let r = resolve_text("#curve(Level, a*exp(-k*Hours) + c, start(a=40, k=0.2, c=-0.5))", &curve()).unwrap();
+    let want = OptionValue::Group(BTreeMap::from([
+        ("a".to_string(), OptionValue::Number(40.0)),
+        ("k".to_string(), OptionValue::Number(0.2)),
+        ("c".to_string(), OptionValue::Number(-0.5)),
+    ]));
+    assert_eq!(r.request.options.get("start"), Some(&want));
+    let x = r.request.expression.as_ref().expect("the request carries the model");
+    assert_eq!(x.text, "a*exp(-k*Hours) + c");
+    assert_eq!(x.parameters, ["a", "k", "c"], "in the order start(…) lists them");
+    assert!(!r.request.intercept, "the model has its own constant");
+    assert_eq!(r.terms, ["a*exp(-k*Hours) + c"]);
+    assert!(r.recipe.is_none());
+}
+
+#[test]
+fn the_formula_evaluates_the_model_on_the_request_columns() {
+    let r = resolve_text("#curve(Level, a*exp(-k*Hours) + c, start(a=40, k=0.2, c=0))", &curve()).unwrap();
+    let q = &r.request;
+    let names: Vec<&str> = q.columns.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(names, ["Hours"]);
+    assert_eq!(q.columns[0].values, (0..12).map(f64::from).collect::<Vec<_>>());
+    let x = q.expression.as_ref().unwrap();
+    for i in 0..q.rows() {
+        let h = q.columns[0].values[i];
+        // The model as typed, a·e^(−k·h) + c, at a=40, k=0.2, c=1.5.
+        let want = 40.0 * (-0.2 * h).exp() + 1.5;
+        assert_eq!(x.formula.eval(&[h], &[40.0, 0.2, 1.5]), want, "row {i}");
+    }
+    // The response is the column argument.
+    assert_eq!(q.response.name, "Level");
+    assert_eq!(q.response.values.len(), 12);
+}
+
+#[test]
+fn columns_of_a_model_are_headers_quoted_headers_or_ranges_in_order_of_first_use() {
+    let text = "#curve(Level, a*sin(pi*\"light\"/12) + b*Data!A2:A13 + a*Light, start(b=1, a=2))";
+    let r = resolve_text(text, &curve()).unwrap();
+    let q = &r.request;
+    assert_eq!(q.columns.iter().map(|c| c.name.as_str()).collect::<Vec<_>>(), ["light", "Data!A2:A13"]);
+    let x = q.expression.as_ref().unwrap();
+    assert_eq!(x.parameters, ["b", "a"]);
+    let (light, hours) = (&q.columns[0].values, &q.columns[1].values);
+    assert_eq!(hours, &(0..12).map(f64::from).collect::<Vec<_>>());
+    for i in 0..q.rows() {
+        // a·sin(π·Light/12) + b·Hours + a·Light at b=1, a=2, as typed.
+        let want = 2.0 * (std::f64::consts::PI * light[i] / 12.0).sin() + 1.0 * hours[i] + 2.0 * light[i];
+        assert_eq!(x.formula.eval(&[light[i], hours[i]], &[1.0, 2.0]), want, "row {i}");
+    }
+    assert!(matches!(&x.formula, Formula::Add(..)));
+}
+
+#[test]
+fn a_misspelled_column_in_a_model_gets_a_caret_and_a_suggestion() {
+    let text = "#curve(Level, a*exp(-k*Hors), start(a=40, k=0.2))";
+    let p = resolve_text(text, &curve()).unwrap_err();
+    assert_eq!(p.message, "there is no column headed 'Hors' in the table Data!A1:D13, and no parameter of that name in start(…)");
+    assert_eq!(carets(&p), carets_under(text, "Hors"));
+    assert_eq!(p.help.as_deref(), Some("did you mean Hours? The headers are Hours, Level, Bay, Light; the parameters are a, k"));
+}
+
+#[test]
+fn unknown_functions_and_unused_parameters_are_pointed_at() {
+    let text = "#curve(Level, a*expp(-k*Hours), start(a=40, k=0.2))";
+    let p = resolve_text(text, &curve()).unwrap_err();
+    assert_eq!(p.message, "'expp' is not a function of the fit language");
+    assert_eq!(carets(&p), carets_under(text, "expp"));
+    assert!(p.help.as_deref().unwrap().starts_with("did you mean exp? The functions are log, log10, exp, sqrt, abs, sin, cos, tan, atan"), "{:?}", p.help);
+
+    let text = "#curve(Level, a*exp(-0.2*Hours), start(a=40, k=0.2))";
+    let p = resolve_text(text, &curve()).unwrap_err();
+    assert_eq!(p.message, "the parameter k is not used in the model a*exp(-0.2*Hours)");
+    assert_eq!(carets(&p), carets_width(text, "k=0.2", 1));
+
+    let text = "#curve(Level, a*exp(-k*Hours))";
+    let p = resolve_text(text, &curve()).unwrap_err();
+    assert_eq!(p.message, "the model a*exp(-k*Hours) has no parameters");
+    assert_eq!(p.help.as_deref(), Some("give each parameter a starting value in start(…), such as start(a=1, k=0.1)"));
+
+    let p = resolve_text("#curve(Level, a*Bay, start(a=1))", &curve()).unwrap_err();
+    assert_eq!(p.message, "'Bay' is a text column (categories), so it cannot be used in arithmetic");
+    let p = resolve_text("#curve(Level, a*Hours, start(a=one))", &curve()).unwrap_err();
+    assert_eq!(p.message, "the starting value of a must be a number");
+}
+
+#[test]
+fn rows_with_a_blank_in_a_models_column_are_left_out_and_counted() {
+    let text = "#curve(Level, a*exp(-k*Hours), start(a=40, k=0.2))";
+    let mut b = book(text);
+    b.sheets[0].set(4, 0, crate::cells::Stored::Empty);
+    b.sheets[0].set_text(7, 0, "n/a");
+    let r = resolve_in(&b, text, &curve()).unwrap();
+    assert_eq!(r.request.rows(), 10);
+    assert_eq!(r.left_out.total(), 2);
+    assert_eq!(
+        r.left_out.describe().as_deref(),
+        Some("2 rows left out: 1 with a blank cell (first Data!A5), 1 with text in a numeric column (first Data!A8)")
+    );
+    assert_eq!(r.placement.rows.len(), 10);
+    assert!(!r.placement.rows.contains(&4) && !r.placement.rows.contains(&7));
 }
