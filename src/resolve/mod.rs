@@ -130,6 +130,38 @@ pub struct Resolved {
     /// How the model columns are made from the inputs, for predictions;
     /// `None` when a term names a column by a range rather than a header.
     pub recipe: Option<Recipe>,
+    /// Where each of [`Resolved::terms`] stands in the request text.
+    pub term_spans: Vec<(String, Span)>,
+    /// Where each column stands in the request text, by label: every
+    /// request column by [`Column::name`] (an indicator or product column
+    /// at its term, a model expression's column at its first use), and the
+    /// response.
+    pub column_spans: Vec<(String, Span)>,
+}
+
+impl Resolved {
+    /// The span in the request text of a term or column named by its label
+    /// ([`Column::term`] or [`Column::name`], as a fit's
+    /// [`FitError::term`](crate::protocol::FitError::term) names it; the
+    /// response's label too): an exact match first, then one ignoring case
+    /// and white space. `None` for a label the request does not have (such
+    /// as `(intercept)`).
+    pub fn span_of(&self, label: &str) -> Option<Span> {
+        let all = || self.term_spans.iter().chain(&self.column_spans);
+        let folded = |s: &str| s.split_whitespace().collect::<String>().to_lowercase();
+        all().find(|(l, _)| l == label).or_else(|| all().find(|(l, _)| folded(l) == folded(label))).map(|(_, s)| *s)
+    }
+
+    /// A fit's error as a problem at the request's cell, with a caret under
+    /// the term it names when the request has that term.
+    pub fn fit_problem(&self, e: &crate::protocol::FitError, cell: &CellAddress, text: &str) -> Problem {
+        let mut p = Problem::error(e.message.clone()).at(cell.clone());
+        p.help = e.help.clone();
+        match e.term.as_deref().and_then(|t| self.span_of(t)) {
+            Some(span) => p.in_text(text, span.start, span.end),
+            None => p,
+        }
+    }
 }
 
 /// The cells a range covers on a grid, corners in order: its columns, and
@@ -413,13 +445,27 @@ pub fn resolve(
         None => design::build_recipe(&frame, &keep, term_exprs, &host.bases, intercept, &request.columns),
         Some(_) => None,
     };
-    let terms = roles.expression.map(|x| x.text.clone()).into_iter().chain(term_exprs.iter().map(|t| typed(text, t.span))).collect();
+    let term_spans: Vec<(String, Span)> = roles
+        .expression
+        .map(|x| (x.text.clone(), x.expr.span))
+        .into_iter()
+        .chain(term_exprs.iter().map(|t| (typed(text, t.span), t.span)))
+        .collect();
+    let term_at = |term: &str| used.iter().find(|(l, _, _)| l == term).map(|(_, s, _)| *s);
+    let column_spans = request
+        .columns
+        .iter()
+        .filter_map(|c| Some((c.name.clone(), term_at(&c.term)?)))
+        .chain([(request.response.name.clone(), response_expr.span)])
+        .collect();
     Ok(Resolved {
         recipe,
         request,
         name: host.name,
         response_label: typed(text, response_expr.span),
-        terms,
+        terms: term_spans.iter().map(|t| t.0.clone()).collect(),
+        term_spans,
+        column_spans,
         placement,
         left_out,
         warnings,

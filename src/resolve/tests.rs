@@ -328,3 +328,47 @@ fn rows_with_a_blank_in_a_models_column_are_left_out_and_counted() {
     assert_eq!(r.placement.rows.len(), 10);
     assert!(!r.placement.rows.contains(&4) && !r.placement.rows.contains(&7));
 }
+
+#[test]
+fn every_term_and_column_keeps_its_place_in_the_request_text() {
+    let text = "#linear(log(Level), Hours + Bay + Light * Bay + sqrt(Light), weights=Light)";
+    let r = resolve_text(text, &builtin("linear")).unwrap();
+    assert_eq!(r.terms, ["Hours", "Bay", "Light * Bay", "sqrt(Light)"]);
+    let at = |label: &str| r.span_of(label).map(|s| slice(text, s));
+    assert_eq!(at("Hours"), Some("Hours"));
+    assert_eq!(at("Bay"), Some("Bay"));
+    assert_eq!(r.span_of("Bay"), Some(Span::new(text.find("Bay").unwrap(), text.find("Bay").unwrap() + 3)), "the term, not the product");
+    // Indicator and product columns point at their term.
+    assert_eq!(at("Bay=North"), Some("Bay"));
+    let product = r.request.columns.iter().find(|c| c.name.contains('*')).expect("a product column");
+    assert_eq!(at(&product.name), Some("Light * Bay"));
+    assert_eq!(at("Light*Bay"), Some("Light * Bay"), "white space and case aside");
+    assert_eq!(at("SQRT(light)"), Some("sqrt(Light)"));
+    assert_eq!(at("log(Level)"), Some("log(Level)"), "the response");
+    assert_eq!(at("(intercept)"), None);
+    assert_eq!(at("Nope"), None);
+}
+
+#[test]
+fn a_fits_complaint_about_a_term_gets_a_caret_under_it() {
+    let text = "#linear(Level, Hours + Bay, name=m)";
+    let r = resolve_text(text, &builtin("linear")).unwrap();
+    let e = crate::protocol::FitError::new("the term Bay=North has no rows").help("drop it").at_term("Bay=North");
+    let p = r.fit_problem(&e, &at(), text);
+    assert_eq!(p.message, "the term Bay=North has no rows");
+    assert_eq!(p.help.as_deref(), Some("drop it"));
+    assert_eq!(carets(&p), carets_under(text, "Bay"));
+    // Without a term, or with one the request does not have: no caret.
+    assert_eq!(r.fit_problem(&crate::protocol::FitError::new("no"), &at(), text).source, None);
+    assert_eq!(r.fit_problem(&crate::protocol::FitError::new("no").at_term("(intercept)"), &at(), text).source, None);
+}
+
+#[test]
+fn a_models_columns_point_at_their_first_use() {
+    let text = "#curve(Level, a*exp(-k*Hours) + c*hours, start(a=40, k=0.2, c=0))";
+    let r = resolve_text(text, &curve()).unwrap();
+    assert_eq!(r.span_of("Hours").map(|s| slice(text, s)), Some("Hours"));
+    assert_eq!(r.span_of("Hours").unwrap().start, text.find("Hours").unwrap());
+    assert_eq!(r.span_of("a*exp(-k*Hours) + c*hours").map(|s| slice(text, s)), Some("a*exp(-k*Hours) + c*hours"));
+    assert_eq!(r.request.columns.len(), 1, "Hours and hours are one column");
+}
