@@ -33,7 +33,8 @@ pub struct Bound {
     pub extra: Vec<BoundArg>,
     /// What a fit receives as options: the value of every option given or
     /// defaulted in the spec, and of every positional parameter whose kind
-    /// is not a column, terms or an expression, by the spec's name. Groups
+    /// is not a column, terms or an expression, by the spec's name (the
+    /// first, when a positional parameter repeats). Groups
     /// are [`OptionValue::Group`]; column, terms, expression and range
     /// options are their text as typed. Catch-all pairs are not here.
     pub values: BTreeMap<String, OptionValue>,
@@ -127,6 +128,8 @@ pub struct BoundExpression {
     /// The parameters in the order the group lists them, with the span of
     /// each key in the group.
     pub parameters: Vec<(String, Span)>,
+    /// The name of the group option that declares them (`start`).
+    pub group: String,
     /// The columns the expression uses, in order of first use.
     pub columns: Vec<ExprColumn>,
 }
@@ -458,13 +461,16 @@ pub(super) fn terms_of(at: &Here, e: &Expr) -> Result<Vec<Expr>, Problem> {
 /// never uses are errors.
 fn bind_expression(at: &Here, e: &Expr, params: &Params) -> Result<BoundExpression, Problem> {
     let parameters = params.list.as_slice();
-    if parameters.is_empty() {
-        let help = match params.group {
-            Some(g) => format!("give each parameter a starting value in {g}(…), such as {g}(a=1, k=0.1)"),
-            None => "this function declares no group option for its parameters".to_string(),
-        };
-        return Err(at.err(e.span, format!("the model {} has no parameters", typed(at.text, e.span))).help(help));
-    }
+    let group = match params.group {
+        Some(g) if !parameters.is_empty() => g,
+        _ => {
+            let help = match params.group {
+                Some(g) => format!("give each parameter a starting value in {g}(…), such as {g}(a=1, k=0.1)"),
+                None => "this function declares no group option for its parameters".to_string(),
+            };
+            return Err(at.err(e.span, format!("the model {} has no parameters", typed(at.text, e.span))).help(help));
+        }
+    };
     let mut used = vec![false; parameters.len()];
     let mut columns: Vec<(String, ExprColumn)> = Vec::new();
     let formula = formula_of(at, e, parameters, &mut used, &mut columns)?;
@@ -472,13 +478,14 @@ fn bind_expression(at: &Here, e: &Expr, params: &Params) -> Result<BoundExpressi
         let (p, span) = &parameters[i];
         return Err(at
             .err(*span, format!("the parameter {p} is not used in the model {}", typed(at.text, e.span)))
-            .help(format!("use {p} in the model, or leave it out of {}(…)", params.group.unwrap_or("the parameters"))));
+            .help(format!("use {p} in the model, or leave it out of {group}(…)")));
     }
     Ok(BoundExpression {
         text: typed(at.text, e.span),
         expr: e.clone(),
         formula,
         parameters: parameters.to_vec(),
+        group: group.to_string(),
         columns: columns.into_iter().map(|(_, c)| c).collect(),
     })
 }

@@ -34,11 +34,11 @@ pub(super) struct Rows {
 /// A weight that is text, an error value or negative is an error naming its
 /// cell; with `stop_on_missing`, any row left out is an error.
 #[allow(clippy::too_many_arguments)]
-pub(super) fn usable_rows(
+pub(super) fn usable_rows<'t>(
     ctx: &Ctx,
     frame: &Frame,
     response: &Num,
-    terms: &[Term],
+    terms: impl Iterator<Item = &'t Term>,
     weights: Option<(&Num, Option<&Expr>)>,
     end: Span,
     stop_on_missing: bool,

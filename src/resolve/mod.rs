@@ -376,9 +376,8 @@ pub fn resolve(
     let mut inputs = Vec::new();
     if let Some(x) = roles.expression {
         let parameters: Vec<String> = x.parameters.iter().map(|p| p.0.clone()).collect();
-        let group = bind::parameter_group(spec).map_or("start", |g| g.name.as_str());
         for c in &x.columns {
-            let v = ctx.expression_column(c, &frame, &parameters, group)?;
+            let v = ctx.expression_column(c, &frame, &parameters, &x.group)?;
             inputs.push((c.label.clone(), c.expr.span, Factor::Num(c.label.clone(), v)));
         }
     }
@@ -392,9 +391,8 @@ pub fn resolve(
     };
 
     // 4. Missing rows.
-    let used: Vec<design::Term> = inputs.iter().chain(&factors).cloned().collect();
     let design::Rows { keep, left_out } =
-        design::usable_rows(&ctx, &frame, &response, &used, weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
+        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
 
     // 5. Model columns on the kept rows: the expression's columns, then the
     // terms' columns.
@@ -431,15 +429,7 @@ pub fn resolve(
         }),
         options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
     };
-    let placement = Placement {
-        sheet: frame.grid.name.clone(),
-        header_row: frame.header_row,
-        first_col: frame.first_col,
-        last_col: frame.last_col,
-        rows: keep.iter().map(|&i| frame.rows[i]).collect(),
-        first_row: frame.rows[0],
-        last_row: *frame.rows.last().unwrap_or(&frame.rows[0]),
-    };
+    let placement = frame.placement(&keep);
     // A recipe rebuilds linear model rows; a model expression is its own.
     let recipe = match roles.expression {
         None => design::build_recipe(&frame, &keep, term_exprs, &host.bases, intercept, &request.columns),
@@ -451,7 +441,7 @@ pub fn resolve(
         .into_iter()
         .chain(term_exprs.iter().map(|t| (typed(text, t.span), t.span)))
         .collect();
-    let term_at = |term: &str| used.iter().find(|(l, _, _)| l == term).map(|(_, s, _)| *s);
+    let term_at = |term: &str| inputs.iter().chain(&factors).find(|(l, _, _)| l == term).map(|(_, s, _)| *s);
     let column_spans = request
         .columns
         .iter()

@@ -7,7 +7,7 @@
 //! cover, and sheet lookup with suggestions.
 
 use super::eval::has_ranges;
-use super::{range_rows, Ctx, Place};
+use super::{range_rows, Ctx, Place, Placement};
 use crate::cells::{CellAddress, CellRange, Grid, Value};
 use crate::problems::{closest, Problem};
 use crate::syntax::{Expr, RangeRef, Request, Span};
@@ -131,6 +131,19 @@ impl<'a> Frame<'a> {
             last_col: t.last_col,
             headers,
             header_names,
+        }
+    }
+
+    /// Where per-row results go when the frame rows `keep` are used.
+    pub fn placement(&self, keep: &[usize]) -> Placement {
+        Placement {
+            sheet: self.grid.name.clone(),
+            header_row: self.header_row,
+            first_col: self.first_col,
+            last_col: self.last_col,
+            rows: keep.iter().map(|&i| self.rows[i]).collect(),
+            first_row: self.rows[0],
+            last_row: *self.rows.last().unwrap_or(&self.rows[0]),
         }
     }
 

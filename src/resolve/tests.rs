@@ -372,3 +372,34 @@ fn a_models_columns_point_at_their_first_use() {
     assert_eq!(r.span_of("a*exp(-k*Hours) + c*hours").map(|s| slice(text, s)), Some("a*exp(-k*Hours) + c*hours"));
     assert_eq!(r.request.columns.len(), 1, "Hours and hours are one column");
 }
+
+#[test]
+fn binding_errors_keep_their_messages_and_carets() {
+    let linear = builtin("linear");
+    // (request, message, the characters under the caret); the messages are
+    // those resolve gave before binding went by kind.
+    let cases = [
+        ("#linear(Level, Hours - Light)", "terms are joined by +; a difference must be in parentheses", "Hours - Light"),
+        ("#linear(Level, Hours + 2)", "a number is not a term", "2"),
+        ("#linear(Level, Hours, data=2)", "data= takes a sheet name or a range, such as data=Sheet2 or data=Sheet2!A1:F500", "2"),
+        ("#linear(Level, Hours, base=East)", "base is written base(column=value)", "base=East"),
+        ("#linear(Level, Hours, start(a=1))", "#linear has no option 'start(…)'", "start"),
+        ("#linear(Level, Hours, level=0.9, Light)", "a positional argument comes after an option", "Light"),
+        ("#linear(Level, Hours, Light)", "#linear takes 2 arguments before its options", "Light"),
+        ("#linear(Level, Hours, missing=maybe)", "missing=maybe is not one of the choices", "maybe"),
+        ("#linear(Level, Hours, level=high)", "level takes a number", "high"),
+        ("#linear(Level, Hours, name=3)", "name takes a word or text in double quotes", "3"),
+        ("#linear(Level, Hours, base(Bay=-Light))", "give a level as a word or in double quotes", "-Light"),
+        ("#polynomial(Level, Hours, degree=2.5)", "degree takes a whole number", "2.5"),
+    ];
+    for (text, message, under) in cases {
+        let spec = if text.starts_with("#poly") { builtin("polynomial") } else { linear.clone() };
+        let p = resolve_text(text, &spec).unwrap_err();
+        assert_eq!(p.message, message, "{text}");
+        let at = text.rfind(under).expect("the fault is in the text");
+        assert_eq!(p.source.as_ref().map(|s| (s.1, s.2)), Some((at, at + under.len())), "{text}");
+    }
+    let p = resolve_text("#linear(Level)", &linear).unwrap_err();
+    assert_eq!(p.message, "#linear needs its terms argument (predictor terms joined by +, such as Light + CO2 + Light^2)");
+    assert_eq!(carets(&p), "    #linear(Level)\n                 ^\n");
+}
