@@ -195,7 +195,13 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
     let mut named: Vec<Pending> = Vec::new();
     let mut extra: Vec<Pending> = Vec::new();
     let mut groups: Vec<(&ParamSpec, Span, Vec<GroupEntry>)> = Vec::new();
-    let accepted = || spec.options.iter().map(|o| o.name.as_str()).collect::<Vec<_>>().join(", ");
+    let accepts = || {
+        if spec.options.is_empty() {
+            format!("#{} takes no options: {}", spec.name, spec.signature())
+        } else {
+            format!("#{} accepts {}", spec.name, spec.options.iter().map(|o| o.name.as_str()).collect::<Vec<_>>().join(", "))
+        }
+    };
     // 1. The argument list: order, count, names.
     for arg in &req.args {
         match arg {
@@ -227,8 +233,8 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
                     }
                     let near = closest(&k, spec.options.iter().map(|o| o.name.as_str()));
                     let help = match near.first() {
-                        Some(n) => format!("did you mean {n}? #{} accepts {}", spec.name, accepted()),
-                        None => format!("#{} accepts {}", spec.name, accepted()),
+                        Some(n) => format!("did you mean {n}? {}", accepts()),
+                        None => accepts(),
                     };
                     return Err(at.err(key.span, format!("#{} has no option '{}'", spec.name, key.name)).help(help));
                 };
@@ -246,7 +252,7 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
                     _ => {
                         return Err(at
                             .err(name.span, format!("#{} has no option '{}(…)'", spec.name, name.name))
-                            .help(format!("#{} accepts {}", spec.name, accepted())))
+                            .help(accepts()))
                     }
                 };
                 let declares_parameters = params.is_some_and(|p| std::ptr::eq(p, o));

@@ -129,6 +129,7 @@ fn compare_takes_two_or_more_fit_names() {
     assert_eq!(carets(&p), "    #compare(main)\n                 ^\n");
     let p = bind_text("#compare(main, curved, level=0.9)", &spec).unwrap_err();
     assert_eq!(p.message, "#compare has no option 'level'");
+    assert_eq!(p.help.as_deref(), Some("#compare takes no options: #compare(fit, fit)"));
 }
 
 #[test]
