@@ -10,7 +10,7 @@
 //! nothing of the workbook: a host function (`#predict`, `#compare`) binds
 //! through the same code as a fit.
 
-use super::eval::{unknown_function, ALL_FUNCTIONS};
+use super::eval::unknown_function;
 use super::{split_terms, typed, Here, HOST_OPTIONS};
 use crate::cells::CellAddress;
 use crate::problems::{closest, Problem};
@@ -531,7 +531,7 @@ fn formula_of(at: &Here, e: &Expr, parameters: &[(String, Span)], used: &mut [bo
         }
         ExprKind::Call { name, args } => {
             let Some(f) = Function::from_name(&name.name) else {
-                return Err(unknown_function(at, name, &ALL_FUNCTIONS));
+                return Err(unknown_function(at, name, &Function::ALL));
             };
             let [arg] = args.as_slice() else {
                 return Err(at.err(e.span, format!("{}(…) takes exactly one argument", f.name())));

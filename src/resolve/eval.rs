@@ -56,20 +56,6 @@ const MAX_POWER: f64 = 30.0;
 /// prediction recipe can rebuild.
 pub(super) const TRANSFORMS: [Function; 5] = [Function::Log, Function::Log10, Function::Exp, Function::Sqrt, Function::Abs];
 
-/// Every function a model expression may call: each [`Function`], for the
-/// list shown when a name is none of them.
-pub(super) const ALL_FUNCTIONS: [Function; 9] = [
-    Function::Log,
-    Function::Log10,
-    Function::Exp,
-    Function::Sqrt,
-    Function::Abs,
-    Function::Sin,
-    Function::Cos,
-    Function::Tan,
-    Function::Atan,
-];
-
 impl Num {
     fn merge_why(&mut self, other: &Num) {
         for (i, w) in other.why.iter().enumerate() {

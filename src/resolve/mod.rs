@@ -11,10 +11,6 @@
 //! - `eval.rs`: names, ranges, arithmetic and transforms over the frame;
 //! - `design.rs`: the rows used, the model columns and the recipe.
 
-// `Problem` is the crate's one error type and is returned by value by every
-// stage; boxing it is a decision for the whole crate, not for this module.
-#![allow(clippy::result_large_err)]
-
 mod bind;
 mod design;
 mod eval;
