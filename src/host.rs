@@ -24,9 +24,12 @@ use crate::numeric::f_sf;
 use crate::predict;
 use crate::problems::{closest, Problem};
 use crate::protocol::{Predictor, RowRole};
+use crate::protocol::FunctionSpec;
 use crate::recipe::{NewValue, Recipe};
+use crate::resolve::{self, BoundArg, BoundValue, Place};
+use crate::cells::CellRange;
 use crate::report::{ComparedFit, Comparison, HostOutcome, NestedTest, Prediction, PredictionRow, Report};
-use crate::syntax::{Arg, ExprKind, Request, UnaryOp};
+use crate::syntax::{ExprKind, Request, UnaryOp};
 use std::collections::BTreeMap;
 
 /// What the pipeline needs of a host function's evaluation.
@@ -81,14 +84,6 @@ fn find_fit<'r>(ctx: &Ctx, reports: &[&'r Report], name: &str, span: crate::synt
     }
 }
 
-fn fit_name_arg(a: &crate::syntax::Expr) -> Option<String> {
-    match &a.kind {
-        ExprKind::Name(n) | ExprKind::Quoted(n) => Some(n.clone()),
-        ExprKind::Range(_) => None,
-        _ => None,
-    }
-}
-
 fn new_value(e: &crate::syntax::Expr) -> Option<NewValue> {
     match &e.kind {
         ExprKind::Number(x) => Some(NewValue::Number(*x)),
@@ -109,45 +104,31 @@ fn predictor(r: &Report) -> Result<&Predictor, String> {
         .ok_or_else(|| format!("the fit '{}' (#{}) offers no predictions with intervals (its outcome has no predictor)", r.name, r.function))
 }
 
-/// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`.
-pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
+/// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`, its
+/// arguments bound against `spec` (`fits::host_functions()`) like any fit's.
+pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, spec: &FunctionSpec, reports: &[&Report]) -> Result<HostResult, Problem> {
     let ctx = Ctx { cell, text };
-    let mut fit_arg = None;
-    let mut given: BTreeMap<String, (NewValue, crate::syntax::Span)> = BTreeMap::new();
-    let mut rows_arg = None;
-    let mut level_arg = None;
-    for a in &req.args {
-        match a {
-            Arg::Positional(e) if fit_arg.is_none() => {
-                let name = fit_name_arg(e).ok_or_else(|| ctx.err(e.span, "#predict's first argument is a fit's name, such as main").help("name a #linear request with name=main and write #predict(main, Light=14)"))?;
-                fit_arg = Some((name, e.span));
-            }
-            Arg::Positional(e) => return Err(ctx.err(e.span, "#predict takes one fit name, then column=value pairs").help("write #predict(main, Light=14, CO2=900)")),
-            Arg::Named { key, value, span } => {
-                let k = key.name.trim().to_lowercase();
-                if (k == "rows" && rows_arg.is_some()) || (k == "level" && level_arg.is_some()) {
-                    return Err(ctx.err(*span, format!("the option {k} is given twice")));
-                }
-                if k == "rows" {
-                    rows_arg = Some(value);
-                } else if k == "level" {
-                    match value.kind {
-                        ExprKind::Number(x) if x > 0.0 && x < 1.0 => level_arg = Some(x),
-                        _ => return Err(ctx.err(value.span, "level= takes a number strictly between 0 and 1, such as level=0.95")),
-                    }
-                } else {
-                    let v = new_value(value).ok_or_else(|| ctx.err(value.span, format!("the value of {} must be a number or a level in double quotes", key.name)))?;
-                    if given.insert(k, (v, *span)).is_some() {
-                        return Err(ctx.err(*span, format!("{} is given twice", key.name)));
-                    }
-                }
-            }
-            Arg::Group { span, .. } => return Err(ctx.err(*span, "#predict takes no group options").help("write #predict(main, Light=14, CO2=900) or #predict(main, rows=Plan!A1:C13)")),
-        }
-    }
-    let Some((fit_name, fit_span)) = fit_arg else {
+    let bound = resolve::bind(spec, req, cell, text)?;
+    let Some((fit_name, fit_span)) = bound.positional.first().and_then(|a| match &a.value {
+        BoundValue::FitName(n) => Some((n.clone(), a.span)),
+        _ => None,
+    }) else {
         return Err(ctx.err(req.span, "#predict needs the name of a fit").help("write #predict(main, Light=14) where main is the name= of a #linear request"));
     };
+    let rows_arg = bound.option("rows");
+    let level_arg = match bound.option("level") {
+        Some(BoundArg { value: BoundValue::Number(x), .. }) if *x > 0.0 && *x < 1.0 => Some(*x),
+        Some(a) => return Err(ctx.err(a.value_span, "level= takes a number strictly between 0 and 1, such as level=0.95")),
+        None => None,
+    };
+    let mut given: BTreeMap<String, (NewValue, crate::syntax::Span)> = BTreeMap::new();
+    for a in &bound.extra {
+        let BoundValue::Column(e) = &a.value else { continue };
+        let v = new_value(e).ok_or_else(|| ctx.err(a.value_span, format!("the value of {} must be a number or a level in double quotes", a.name)))?;
+        if given.insert(a.name.to_lowercase(), (v, a.span)).is_some() {
+            return Err(ctx.err(a.span, format!("{} is given twice", a.name)));
+        }
+    }
     let fit = find_fit(&ctx, reports, &fit_name, fit_span)?;
     let recipe: &Recipe = fit.recipe.as_ref().ok_or_else(|| {
         ctx.err(fit_span, format!("the fit '{}' names a column by a range or uses a term a new value cannot be given for, so it cannot predict", fit.name))
@@ -158,17 +139,12 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
     let mut points: Vec<(Vec<NewValue>, String)> = Vec::new();
     match (rows_arg, given.is_empty()) {
         (Some(v), true) => {
-            let ExprKind::Range(r) = &v.kind else {
-                return Err(ctx.err(v.span, "rows= takes a range with headers in its first row, such as rows=Plan!A1:C13"));
+            let BoundValue::Range(Place::Range(r)) = &v.value else {
+                return Err(ctx.err(v.value_span, "rows= takes a range with headers in its first row, such as rows=Plan!A1:C13"));
             };
             let sheet = r.sheet.clone().unwrap_or_else(|| cell.sheet.clone());
-            let grid = book.sheet(&sheet).ok_or_else(|| ctx.err(v.span, format!("there is no sheet named '{sheet}'")))?;
-            let ext = grid.extent();
-            let (fr, lr) = match (r.start.row, r.end.row) {
-                (Some(a), Some(b)) => (a.min(b), a.max(b)),
-                _ => ext.map(|e| (e.first_row, e.last_row)).unwrap_or((0, 0)),
-            };
-            let (fc, lc) = (r.start.col.min(r.end.col), r.start.col.max(r.end.col));
+            let grid = book.sheet(&sheet).ok_or_else(|| ctx.err(v.value_span, format!("there is no sheet named '{sheet}'")))?;
+            let CellRange { first_row: fr, last_row: lr, first_col: fc, last_col: lc } = resolve::range_rows(grid, r);
             let mut cols: Vec<Option<usize>> = Vec::new();
             for c in fc..=lc {
                 let h = match grid.value(fr, c) {
@@ -179,7 +155,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
             }
             for (i, inp) in recipe.inputs.iter().enumerate() {
                 if !cols.contains(&Some(i)) {
-                    return Err(ctx.err(v.span, format!("the table {} has no column headed {}", CellAddress::new(sheet.clone(), fr, fc), inp.name)).help(format!(
+                    return Err(ctx.err(v.value_span, format!("the table {} has no column headed {}", CellAddress::new(sheet.clone(), fr, fc), inp.name)).help(format!(
                         "its first row must name every input of the fit: {}",
                         recipe.inputs.iter().map(|x| x.name.as_str()).collect::<Vec<_>>().join(", ")
                     )));
@@ -215,10 +191,10 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, r
                 points.push((out, format!("row {}", row + 1)));
             }
             if points.is_empty() {
-                return Err(ctx.err(v.span, "the table of new values has no rows below its headers"));
+                return Err(ctx.err(v.value_span, "the table of new values has no rows below its headers"));
             }
         }
-        (Some(v), false) => return Err(ctx.err(v.span, "give either column=value pairs or rows=, not both")),
+        (Some(v), false) => return Err(ctx.err(v.value_span, "give either column=value pairs or rows=, not both")),
         (None, true) => {
             return Err(ctx.err(req.span, "#predict needs the new values").help(format!(
                 "give every input of the fit as column=value, such as #predict({}, {}), or a table with rows=",
@@ -281,21 +257,17 @@ fn norm(s: &str) -> String {
 }
 
 /// Evaluates `#compare(fit, fit, …)`.
-pub fn compare(cell: &CellAddress, text: &str, req: &Request, reports: &[&Report]) -> Result<HostResult, Problem> {
+pub fn compare(cell: &CellAddress, text: &str, req: &Request, spec: &FunctionSpec, reports: &[&Report]) -> Result<HostResult, Problem> {
     let ctx = Ctx { cell, text };
+    let bound = resolve::bind(spec, req, cell, text)?;
     let mut fits: Vec<&Report> = Vec::new();
-    for a in &req.args {
-        match a {
-            Arg::Positional(e) => {
-                let name = fit_name_arg(e).ok_or_else(|| ctx.err(e.span, "#compare takes the names of fits, such as #compare(main, curved)"))?;
-                let f = find_fit(&ctx, reports, &name, e.span)?;
-                if fits.iter().any(|x| std::ptr::eq(*x, f)) {
-                    return Err(ctx.err(e.span, format!("the fit '{}' is named twice", f.name)));
-                }
-                fits.push(f);
-            }
-            other => return Err(ctx.err(other.span(), "#compare takes only fit names").help("write #compare(main, curved, bays)")),
+    for a in &bound.positional {
+        let BoundValue::FitName(name) = &a.value else { continue };
+        let f = find_fit(&ctx, reports, name, a.span)?;
+        if fits.iter().any(|x| std::ptr::eq(*x, f)) {
+            return Err(ctx.err(a.span, format!("the fit '{}' is named twice", f.name)));
         }
+        fits.push(f);
     }
     if fits.len() < 2 {
         return Err(ctx.err(req.span, "#compare needs at least two fits").help("write #compare(main, curved)"));

@@ -188,7 +188,7 @@ pub fn evaluate_book(book: &Workbook, file: &str, registry: &Registry) -> Summar
         }
     }
     let fits: Vec<&Report> = slots.iter().flatten().map(|(r, _)| r).collect();
-    let done: Vec<(usize, (Report, Vec<Problem>))> = deferred.iter().map(|(i, parsed)| (*i, evaluate_host(book, &found[*i], parsed, &fits))).collect();
+    let done: Vec<(usize, (Report, Vec<Problem>))> = deferred.iter().map(|(i, parsed)| (*i, evaluate_host(book, &found[*i], parsed, registry, &fits))).collect();
     for (i, d) in done {
         slots[i] = Some(d);
     }
@@ -227,13 +227,13 @@ fn unfinished_report(f: &FoundRequest, function: &str) -> Report {
 }
 
 /// Evaluates one `#predict` or `#compare` request against the fits.
-fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, fits: &[&Report]) -> (Report, Vec<Problem>) {
+fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, registry: &Registry, fits: &[&Report]) -> (Report, Vec<Problem>) {
     let fname = parsed.function.name.to_lowercase();
     let mut report = unfinished_report(f, &fname);
-    let result = if fname == "predict" {
-        crate::host::predict(book, &f.cell, &f.text, parsed, fits)
-    } else {
-        crate::host::compare(&f.cell, &f.text, parsed, fits)
+    let result = match (fname.as_str(), registry.host_function(&fname)) {
+        ("predict", Some(spec)) => crate::host::predict(book, &f.cell, &f.text, parsed, spec, fits),
+        (_, Some(spec)) => crate::host::compare(&f.cell, &f.text, parsed, spec, fits),
+        (_, None) => Err(Problem::error(format!("there is no function #{fname}")).at(f.cell.clone())),
     };
     match result {
         Ok(h) => {
@@ -314,11 +314,7 @@ fn evaluate_one(
     let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| fit.fit(&resolved.request)));
     let mut outcome = match result {
         Ok(Ok(o)) => o,
-        Ok(Err(e)) => {
-            let mut p = Problem::error(e.message.clone()).at(f.cell.clone());
-            p.help = e.help.clone();
-            return fail(report, p);
-        }
+        Ok(Err(e)) => return fail(report, resolved.fit_problem(&e, &f.cell, &f.text)),
         Err(payload) => {
             let why = payload.downcast_ref::<&str>().map(|s| s.to_string()).or_else(|| payload.downcast_ref::<String>().cloned()).unwrap_or_default();
             let p = Problem::error(format!("the fit #{fname} stopped with an internal error ({why}); this is a bug in the fit, not in your data"))
@@ -345,7 +341,11 @@ fn evaluate_one(
     outcome.warnings.splice(0..0, term_warnings.iter().map(|w| w.text.clone()));
     let mut problems = resolved.warnings.clone();
     for w in &term_warnings {
-        problems.push(Problem::warning(w.text.clone()).at(f.cell.clone()));
+        let p = Problem::warning(w.text.clone()).at(f.cell.clone());
+        problems.push(match resolved.span_of(&w.term) {
+            Some(span) => p.in_text(&f.text, span.start, span.end),
+            None => p,
+        });
     }
     for w in outcome.warnings.iter().skip(term_warnings.len()) {
         problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
@@ -460,25 +460,79 @@ mod tests {
 
     #[test]
     fn a_panicking_fit_costs_only_its_request() {
-        use crate::cells::Grid;
         use crate::fits::Fit;
         let mut registry = Registry::builtin();
         let mut spec = crate::fits::linear::Linear::new().spec().clone();
         spec.name = "boom".into();
         registry.register("test", crate::protocol::PROTOCOL_VERSION, Box::new(Boom(spec))).expect("registers");
-        let mut g = Grid::new("Data");
-        g.set_text(0, 0, "x");
-        g.set_text(0, 1, "y");
-        for i in 1..=6u32 {
-            g.set_number(i, 0, f64::from(i));
-            g.set_number(i, 1, f64::from(i * i));
-        }
-        g.set_text(1, 3, "#boom(y, x)");
-        g.set_text(2, 3, "#linear(y, x)");
-        let s = evaluate_book(&Workbook { sheets: vec![g] }, "t.xlsx", &registry);
+        let s = evaluate_book(&small_book(&["#boom(y, x)", "#linear(y, x)"]), "t.xlsx", &registry);
         assert_eq!(s.reports[0].status, Status::Error);
         assert!(s.reports[0].messages[0].contains("internal error (index out of bounds in a test fit)"), "{:?}", s.reports[0].messages);
         assert_ne!(s.reports[1].status, Status::Error);
+    }
+
+    /// A sheet `Data` with x, y, twice x and a three-level text column, and
+    /// the requests in column F.
+    fn small_book(requests: &[&str]) -> Workbook {
+        use crate::cells::Grid;
+        let mut g = Grid::new("Data");
+        for (c, h) in ["x", "y", "x2", "g"].iter().enumerate() {
+            g.set_text(0, c as u32, h);
+        }
+        for i in 1..=9u32 {
+            let x = f64::from(i);
+            g.set_number(i, 0, x);
+            g.set_number(i, 1, 1.0 + x + 0.1 * f64::from(i % 3));
+            g.set_number(i, 2, 2.0 * x);
+            g.set_text(i, 3, ["a", "b", "c"][(i % 3) as usize]);
+        }
+        for (k, r) in requests.iter().enumerate() {
+            g.set_text(k as u32 + 1, 5, r);
+        }
+        Workbook { sheets: vec![g] }
+    }
+
+    #[test]
+    fn a_fit_complaint_about_a_term_points_at_the_term() {
+        // An error naming a term (FitError::term) and a warning about a
+        // term (term_warnings) each get a caret under that term.
+        let s = evaluate_book(&small_book(&["#polynomial(y, g, degree=2)", "#linear(y, x + x2)"]), "t.xlsx", &Registry::builtin());
+        let caret = |p: &Problem| p.source.as_deref().map(|(t, a, b)| t[*a..*b].to_string());
+        let err = s.problems.iter().find(|p| p.message.contains("takes one numeric column")).expect("the polynomial's error");
+        assert_eq!(caret(err).as_deref(), Some("g"), "{err:?}");
+        let warn = s.problems.iter().find(|p| p.message.contains("exact combination")).expect("the collinear warning");
+        assert_eq!(caret(warn).as_deref(), Some("x2"), "{warn:?}");
+    }
+
+    /// A fit of a model with parameters that answers with what it received.
+    struct Echo(crate::protocol::FunctionSpec);
+    impl crate::fits::Fit for Echo {
+        fn spec(&self) -> &crate::protocol::FunctionSpec {
+            &self.0
+        }
+        fn fit(&self, req: &crate::protocol::FitRequest) -> Result<crate::protocol::FitOutcome, crate::fits::FitError> {
+            let x = req.expression.as_ref().map(|m| (m.parameters.join(","), m.formula.eval(&[req.columns[0].values[0]], &[2.0, 0.5]))).unwrap_or_default();
+            Err(crate::fits::FitError::new(format!("start={:?} model={x:?}", req.options.get("start"))))
+        }
+    }
+
+    #[test]
+    fn start_values_and_the_model_reach_the_fit() {
+        use crate::protocol::{FunctionSpec, ParamKind, ParamSpec};
+        let p = |name: &str, kind: ParamKind, required: bool| ParamSpec { name: name.into(), kind, required, default: None, choices: Vec::new(), help: String::new() };
+        let spec = FunctionSpec {
+            name: "echo".into(),
+            help: String::new(),
+            positional: vec![p("response", ParamKind::Column, true), p("model", ParamKind::Expression, true)],
+            options: vec![p("start", ParamKind::Group, false)],
+        };
+        let mut registry = Registry::builtin();
+        registry.register("test", crate::protocol::PROTOCOL_VERSION, Box::new(Echo(spec))).expect("registers");
+        let s = evaluate_book(&small_book(&["#echo(y, a*x^b, start(a=2, b=0.5))"]), "t.xlsx", &registry);
+        // At x = 1 (the first row), a·x^b = 2 whatever b (arithmetic).
+        let m = &s.reports[0].messages[0];
+        assert!(m.contains(r#"start=Some(Group({"a": Number(2.0), "b": Number(0.5)}))"#), "{m}");
+        assert!(m.contains(r#"model=("a,b", 2.0)"#), "{m}");
     }
 
     #[test]

@@ -836,6 +836,19 @@ pub enum Function {
 }
 
 impl Function {
+    /// Every function, in the order the docs list them.
+    pub const ALL: [Function; 9] = [
+        Function::Log,
+        Function::Log10,
+        Function::Exp,
+        Function::Sqrt,
+        Function::Abs,
+        Function::Sin,
+        Function::Cos,
+        Function::Tan,
+        Function::Atan,
+    ];
+
     /// The function of a fit-language name (`log`, `sin`, …), case-insensitive.
     pub fn from_name(name: &str) -> Option<Function> {
         Some(match name.to_ascii_lowercase().as_str() {

@@ -158,6 +158,13 @@ fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
     let predicted = num(&t[at + 5][1]).expect("a cached predicted value");
     let by_hand = b[0] + b[1] * m + b[2] * m * m;
     assert!((predicted - by_hand).abs() < 1e-12 * by_hand.abs(), "{predicted} vs {by_hand}");
+    // With PLUMB_RECALC set (as .ci/run does), LibreOffice recalculates the
+    // calculator at the first #predict point and must agree with #predict.
+    if std::env::var_os("PLUMB_RECALC").is_some() {
+        let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/calculator_recalc.py");
+        let st = std::process::Command::new("python3").arg(script).arg(&out).status().expect("python3 runs");
+        assert!(st.success(), "LibreOffice's recalculation of the polynomial's calculator disagrees with #predict");
+    }
     let _ = std::fs::remove_dir_all(&d);
 }
 

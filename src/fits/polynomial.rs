@@ -72,11 +72,12 @@ impl Fit for Polynomial {
             }
         };
         let [base] = req.columns.as_slice() else {
-            return Err(FitError::new(format!(
-                "#polynomial takes one numeric column as x, but x makes {} model columns",
-                req.columns.len()
-            ))
-            .help("give one numeric column, such as Light; use #linear for several terms"));
+            let e = FitError::new(format!("#polynomial takes one numeric column as x, but x makes {} model columns", req.columns.len()))
+                .help("give one numeric column, such as Light; use #linear for several terms");
+            return Err(match req.columns.first() {
+                Some(c) => e.at_term(c.term.clone()),
+                None => e,
+            });
         };
         let p = degree as usize + usize::from(req.intercept);
         if req.rows() <= p {

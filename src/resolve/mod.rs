@@ -1,0 +1,462 @@
+//! From a parsed request to numbers a fit can use.
+//!
+//! This module finds request cells and resolves one request against the
+//! workbook: its output is a protocol [`FitRequest`] plus where the fit's
+//! per-row results belong ([`Placement`]), the rows left out and why
+//! ([`LeftOut`]), and the [`Recipe`] for predictions. This file holds the
+//! public API and runs the steps; each step has its own file:
+//!
+//! - `bind.rs`: the arguments against the function's spec;
+//! - `tables.rs`: the data table or ranges a request reads (its frame);
+//! - `eval.rs`: names, ranges, arithmetic and transforms over the frame;
+//! - `design.rs`: the rows used, the model columns and the recipe.
+
+mod bind;
+mod design;
+mod eval;
+mod tables;
+
+pub use self::bind::{bind, is_catch_all, parameter_group, Bound, BoundArg, BoundExpression, BoundValue, ExprColumn, GroupEntry, Place};
+use self::eval::{referenced_names, Factor};
+use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
+use crate::problems::Problem;
+use crate::protocol::{Column, FitRequest, FunctionSpec, ModelExpression, OptionValue, PROTOCOL_VERSION};
+use crate::recipe::Recipe;
+use crate::syntax::{self, BinOp, Expr, ExprKind, RangeRef, Request, Span};
+use std::collections::{BTreeMap, HashSet};
+
+/// The most model columns one request may produce (after categorical
+/// expansion and products).
+pub const MAX_MODEL_COLUMNS: usize = 1000;
+
+/// A request cell found in the workbook.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FoundRequest {
+    /// Where it is.
+    pub cell: CellAddress,
+    /// Its text.
+    pub text: String,
+}
+
+/// Every cell whose text looks like a request, in sheet order then row-major.
+pub fn find_requests(book: &Workbook) -> Vec<FoundRequest> {
+    let mut out = Vec::new();
+    for g in &book.sheets {
+        for (r, c, v) in g.cells() {
+            if let Value::Text(t) = v {
+                if syntax::looks_like_request(t) {
+                    out.push(FoundRequest { cell: CellAddress::new(g.name.clone(), r, c), text: t.to_string() });
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Where a fit's per-row results go: the data rows of its table on a sheet.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Placement {
+    /// Sheet of the data.
+    pub sheet: String,
+    /// The table's header row, when it has one.
+    pub header_row: Option<u32>,
+    /// The table's first and last column.
+    pub first_col: u32,
+    /// Last column of the table.
+    pub last_col: u32,
+    /// For each row sent to the fit, its absolute row on the sheet.
+    pub rows: Vec<u32>,
+    /// All data rows of the table (used or not), first and last.
+    pub first_row: u32,
+    /// Last data row.
+    pub last_row: u32,
+}
+
+/// Why rows were left out, with a count and the first cell of each reason.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct LeftOut {
+    /// (reason, rows, first cell) in a fixed order.
+    pub reasons: Vec<(String, usize, Option<CellAddress>)>,
+}
+
+impl LeftOut {
+    /// Total rows left out.
+    pub fn total(&self) -> usize {
+        self.reasons.iter().map(|r| r.1).sum()
+    }
+
+    /// One sentence, such as "3 rows left out: 2 with a blank cell (first
+    /// Weekly!C14), 1 with text in a numeric column (first Weekly!D40)".
+    pub fn describe(&self) -> Option<String> {
+        let total = self.total();
+        if total == 0 {
+            return None;
+        }
+        let parts: Vec<String> = self
+            .reasons
+            .iter()
+            .filter(|r| r.1 > 0)
+            .map(|(why, k, first)| match first {
+                Some(c) => format!("{k} {why} (first {c})"),
+                None => format!("{k} {why}"),
+            })
+            .collect();
+        Some(format!("{total} row{} left out: {}", if total == 1 { "" } else { "s" }, parts.join(", ")))
+    }
+}
+
+/// A request resolved into numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Resolved {
+    /// What the fit receives.
+    pub request: FitRequest,
+    /// The `name=` option, when given.
+    pub name: Option<String>,
+    /// The response as typed.
+    pub response_label: String,
+    /// The terms as typed (a model expression, when the function takes
+    /// one, first).
+    pub terms: Vec<String>,
+    /// Where per-row results belong.
+    pub placement: Placement,
+    /// Rows left out and why.
+    pub left_out: LeftOut,
+    /// Warnings about the data (rows left out, …).
+    pub warnings: Vec<Problem>,
+    /// How the model columns are made from the inputs, for predictions;
+    /// `None` when a term names a column by a range rather than a header.
+    pub recipe: Option<Recipe>,
+    /// Where each of [`Resolved::terms`] stands in the request text.
+    pub term_spans: Vec<(String, Span)>,
+    /// Where each column stands in the request text, by label: every
+    /// request column by [`Column::name`] (an indicator or product column
+    /// at its term, a model expression's column at its first use), and the
+    /// response.
+    pub column_spans: Vec<(String, Span)>,
+}
+
+impl Resolved {
+    /// The span in the request text of a term or column named by its label
+    /// ([`Column::term`] or [`Column::name`], as a fit's
+    /// [`FitError::term`](crate::protocol::FitError::term) names it; the
+    /// response's label too): an exact match first, then one ignoring case
+    /// and white space. `None` for a label the request does not have (such
+    /// as `(intercept)`).
+    pub fn span_of(&self, label: &str) -> Option<Span> {
+        let all = || self.term_spans.iter().chain(&self.column_spans);
+        let folded = |s: &str| s.split_whitespace().collect::<String>().to_lowercase();
+        all().find(|(l, _)| l == label).or_else(|| all().find(|(l, _)| folded(l) == folded(label))).map(|(_, s)| *s)
+    }
+
+    /// A fit's error as a problem at the request's cell, with a caret under
+    /// the term it names when the request has that term.
+    pub fn fit_problem(&self, e: &crate::protocol::FitError, cell: &CellAddress, text: &str) -> Problem {
+        let mut p = Problem::error(e.message.clone()).at(cell.clone());
+        p.help = e.help.clone();
+        match e.term.as_deref().and_then(|t| self.span_of(t)) {
+            Some(span) => p.in_text(text, span.start, span.end),
+            None => p,
+        }
+    }
+}
+
+/// The cells a range covers on a grid, corners in order: its columns, and
+/// its rows (for whole columns such as `C:C`, the used rows of the sheet;
+/// row 0 alone on an empty sheet). The one reading of a range's rows for
+/// `data=`, one-column ranges and tables of new values.
+pub fn range_rows(grid: &Grid, r: &RangeRef) -> CellRange {
+    let (first_row, last_row) = match (r.start.row, r.end.row) {
+        (Some(a), Some(b)) => (a.min(b), a.max(b)),
+        _ => grid.extent().map(|e| (e.first_row, e.last_row)).unwrap_or((0, 0)),
+    };
+    CellRange { first_row, last_row, first_col: r.start.col.min(r.end.col), last_col: r.start.col.max(r.end.col) }
+}
+
+/// The options the host applies itself: their meaning is a field of the
+/// [`FitRequest`] or a step of resolution, so they are never repeated in
+/// [`FitRequest::options`]. `name` names the fit for other requests,
+/// `level` is [`FitRequest::level`], `intercept` is
+/// [`FitRequest::intercept`], `weights` (a column) is
+/// [`FitRequest::weights`], `missing` says whether rows with unusable cells
+/// are left out or stop the request, `data` chooses the table, and
+/// `base(...)` the base level of text columns.
+pub const HOST_OPTIONS: [&str; 7] = [NAME, LEVEL, INTERCEPT, WEIGHTS, MISSING, DATA, BASE];
+const NAME: &str = "name";
+const LEVEL: &str = "level";
+const INTERCEPT: &str = "intercept";
+const WEIGHTS: &str = "weights";
+const MISSING: &str = "missing";
+const DATA: &str = "data";
+const BASE: &str = "base";
+
+/// Where a request is: its cell and text, for errors with a caret.
+#[derive(Clone, Copy)]
+struct Here<'a> {
+    cell: &'a CellAddress,
+    text: &'a str,
+}
+
+impl Here<'_> {
+    /// An error at the request's cell with a caret under `span`.
+    fn err(&self, span: Span, message: impl Into<String>) -> Problem {
+        Problem::error(message).at(self.cell.clone()).in_text(self.text, span.start, span.end)
+    }
+}
+
+/// The resolver's context for one request.
+struct Ctx<'a> {
+    book: &'a Workbook,
+    cell: &'a CellAddress,
+    text: &'a str,
+}
+
+impl Ctx<'_> {
+    /// The request's place.
+    fn here(&self) -> Here<'_> {
+        Here { cell: self.cell, text: self.text }
+    }
+
+    /// An error at the request's cell with a caret under `span`.
+    fn err(&self, span: Span, message: impl Into<String>) -> Problem {
+        self.here().err(span, message)
+    }
+}
+
+/// The text a user typed for an expression, white space folded.
+fn typed(text: &str, span: Span) -> String {
+    text.get(span.start..span.end).unwrap_or("").split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
+/// Splits a model argument at its top-level `+` into terms.
+fn split_terms(e: &Expr, out: &mut Vec<Expr>) {
+    match &e.kind {
+        ExprKind::Binary { op: BinOp::Add, lhs, rhs } => {
+            split_terms(lhs, out);
+            split_terms(rhs, out);
+        }
+        _ => out.push(e.clone()),
+    }
+}
+
+/// The host's options of one request, read from its bound arguments.
+struct HostOptions<'b> {
+    name: Option<String>,
+    level: f64,
+    intercept: bool,
+    stop_on_missing: bool,
+    /// `base(...)`: lowercase column name → base level.
+    bases: BTreeMap<String, String>,
+    weights: Option<&'b Expr>,
+    data: Option<(&'b Place, Span)>,
+}
+
+impl<'b> HostOptions<'b> {
+    fn of(at: &Here, bound: &'b Bound) -> Result<Self, Problem> {
+        let values = &bound.values;
+        let level = match values.get(LEVEL) {
+            Some(OptionValue::Number(x)) => *x,
+            _ => 0.95,
+        };
+        if !(level > 0.0 && level < 1.0) {
+            let span = bound.option(LEVEL).map(|o| o.value_span).unwrap_or(bound.end);
+            return Err(at.err(span, format!("level={level} is not between 0 and 1")).help("write the confidence level as a fraction, such as level=0.95"));
+        }
+        let bases = match bound.option(BASE).map(|o| &o.value) {
+            Some(BoundValue::Group(entries)) => entries
+                .iter()
+                .map(|e| {
+                    let level = match &e.value {
+                        OptionValue::Number(x) => format!("{x}"),
+                        OptionValue::Text(t) => t.clone(),
+                        OptionValue::Group(_) => String::new(),
+                    };
+                    (e.key.to_lowercase(), level)
+                })
+                .collect(),
+            _ => BTreeMap::new(),
+        };
+        Ok(HostOptions {
+            name: match values.get(NAME) {
+                Some(OptionValue::Text(t)) => Some(t.clone()),
+                _ => None,
+            },
+            level,
+            intercept: !matches!(values.get(INTERCEPT), Some(OptionValue::Text(t)) if t == "no"),
+            stop_on_missing: matches!(values.get(MISSING), Some(OptionValue::Text(t)) if t == "stop"),
+            bases,
+            weights: match bound.option(WEIGHTS).map(|o| &o.value) {
+                Some(BoundValue::Column(e)) => Some(e),
+                _ => None,
+            },
+            data: bound.option(DATA).and_then(|o| match &o.value {
+                BoundValue::Range(p) => Some((p, o.value_span)),
+                _ => None,
+            }),
+        })
+    }
+}
+
+/// What the positional arguments are to the model, by their kinds: the
+/// first column is the response; the terms of a terms argument, and of any
+/// later column argument (split at `+` as terms are), are the model's terms.
+/// A model expression argument, of a positional or an option, is the
+/// model with parameters.
+struct Roles<'b> {
+    response: &'b Expr,
+    terms: Vec<Expr>,
+    expression: Option<&'b BoundExpression>,
+}
+
+impl<'b> Roles<'b> {
+    fn of(at: &Here, spec: &FunctionSpec, req: &Request, bound: &'b Bound) -> Result<Self, Problem> {
+        let mut response = None;
+        let mut terms = Vec::new();
+        for a in &bound.positional {
+            match &a.value {
+                BoundValue::Column(e) if response.is_none() => response = Some(e),
+                BoundValue::Column(e) => terms.extend(bind::terms_of(at, e)?),
+                BoundValue::Terms(t) => terms.extend(t.iter().cloned()),
+                _ => {}
+            }
+        }
+        let Some(response) = response else {
+            return Err(at.err(req.span, format!("#{} declares no column argument to explain", spec.name)).help("a fit's first column argument is its response"));
+        };
+        let expression = bound.positional.iter().chain(&bound.options).find_map(|a| match &a.value {
+            BoundValue::Expression(x) => Some(x),
+            _ => None,
+        });
+        Ok(Roles { response, terms, expression })
+    }
+}
+
+/// Resolves one parsed request against the workbook for the function `spec`.
+///
+/// `requests` holds every request cell of the workbook, so that tables are
+/// detected without them.
+pub fn resolve(
+    book: &Workbook,
+    cell: &CellAddress,
+    text: &str,
+    req: &Request,
+    spec: &FunctionSpec,
+    requests: &HashSet<CellAddress>,
+) -> Result<Resolved, Problem> {
+    let ctx = Ctx { book, cell, text };
+    let here = ctx.here();
+    // 1. Arguments against the spec, by kind; their roles.
+    let bound = bind::bind_at(&here, spec, req)?;
+    let host = HostOptions::of(&here, &bound)?;
+    let roles = Roles::of(&here, spec, req, &bound)?;
+    let (response_expr, term_exprs) = (roles.response, &roles.terms);
+    let expression_columns: Vec<&Expr> = roles.expression.iter().flat_map(|x| x.columns.iter().map(|c| &c.expr)).collect();
+
+    // 2. The frame: the data table, or the rows of the ranges used.
+    let mut names = Vec::new();
+    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()) {
+        referenced_names(e, &mut names);
+    }
+    let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).chain(expression_columns.iter().copied()).collect();
+    let frame = ctx.frame(req, host.data, &names, &columns, requests)?;
+
+    // 3. Evaluate.
+    let response = match ctx.eval(response_expr, &frame)? {
+        Factor::Num(_, v) => v,
+        _ => {
+            return Err(ctx
+                .err(response_expr.span, format!("the response '{}' is a text column; #{} needs numbers", typed(text, response_expr.span), spec.name))
+                .help("choose a numeric column as the response"))
+        }
+    };
+    // The expression's columns first: they are the first request columns.
+    let mut inputs = Vec::new();
+    if let Some(x) = roles.expression {
+        let parameters: Vec<String> = x.parameters.iter().map(|p| p.0.clone()).collect();
+        for c in &x.columns {
+            let v = ctx.expression_column(c, &frame, &parameters, &x.group)?;
+            inputs.push((c.label.clone(), c.expr.span, Factor::Num(c.label.clone(), v)));
+        }
+    }
+    let mut factors = Vec::new();
+    for t in term_exprs {
+        factors.push((typed(text, t.span), t.span, ctx.eval(t, &frame)?));
+    }
+    let weights = match host.weights {
+        Some(w) => Some(ctx.numeric(w, &frame)?),
+        None => None,
+    };
+
+    // 4. Missing rows.
+    let design::Rows { keep, left_out } =
+        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
+
+    // 5. Model columns on the kept rows: the expression's columns, then the
+    // terms' columns.
+    let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+    let mut columns = design::model_columns(&ctx, &inputs, &keep, &host.bases)?;
+    let term_columns = design::model_columns(&ctx, &factors, &keep, &host.bases)?;
+    // A model expression has its own constant, if any: an intercept only
+    // when the spec has the option.
+    let intercept = host.intercept && (roles.expression.is_none() || spec.option(INTERCEPT).is_some());
+    let p = term_columns.len() + usize::from(intercept) + roles.expression.map_or(0, |x| x.parameters.len());
+    columns.extend(term_columns);
+    if keep.len() <= p {
+        let lost = left_out.describe().map(|d| format!(" ({d})")).unwrap_or_default();
+        return Err(ctx
+            .err(req.span, format!("{} rows are usable{lost}, but the model has {p} parameters; least squares needs more rows than parameters", keep.len()))
+            .help("add data rows or use fewer terms"));
+    }
+    let mut warnings = Vec::new();
+    if let Some(d) = left_out.describe() {
+        warnings.push(Problem::warning(d).at(cell.clone()));
+    }
+    let request = FitRequest {
+        protocol: PROTOCOL_VERSION,
+        function: spec.name.clone(),
+        response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
+        columns,
+        intercept,
+        weights: weights.as_ref().map(|w| pick(&w.values)),
+        level: host.level,
+        expression: roles.expression.map(|x| ModelExpression {
+            text: x.text.clone(),
+            formula: x.formula.clone(),
+            parameters: x.parameters.iter().map(|p| p.0.clone()).collect(),
+        }),
+        options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
+    };
+    let placement = frame.placement(&keep);
+    // A recipe rebuilds linear model rows; a model expression is its own.
+    let recipe = match roles.expression {
+        None => design::build_recipe(&frame, &keep, term_exprs, &host.bases, intercept, &request.columns),
+        Some(_) => None,
+    };
+    let term_spans: Vec<(String, Span)> = roles
+        .expression
+        .map(|x| (x.text.clone(), x.expr.span))
+        .into_iter()
+        .chain(term_exprs.iter().map(|t| (typed(text, t.span), t.span)))
+        .collect();
+    let term_at = |term: &str| inputs.iter().chain(&factors).find(|(l, _, _)| l == term).map(|(_, s, _)| *s);
+    let column_spans = request
+        .columns
+        .iter()
+        .filter_map(|c| Some((c.name.clone(), term_at(&c.term)?)))
+        .chain([(request.response.name.clone(), response_expr.span)])
+        .collect();
+    Ok(Resolved {
+        recipe,
+        request,
+        name: host.name,
+        response_label: typed(text, response_expr.span),
+        terms: term_spans.iter().map(|t| t.0.clone()).collect(),
+        term_spans,
+        column_spans,
+        placement,
+        left_out,
+        warnings,
+    })
+}
+
+#[cfg(test)]
+mod tests;
