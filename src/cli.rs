@@ -40,6 +40,8 @@ const EXIT_HELP: &str = "Exit status: 0 every request fitted; 1 some request fai
 
 Reproducible output: set SOURCE_DATE_EPOCH (seconds since 1970, UTC) to pin the time recorded in the output; the same input then gives the same bytes.";
 
+const CHECK_HELP: &str = "Exit status: 0 every request fits; 1 some request fails (each failure shown at its cell); 2 the input could not be used. check never writes a file.";
+
 /// Regression fits requested from workbook cells.
 #[derive(Debug, Parser)]
 #[command(name = "plumb", version, about, after_help = EXIT_HELP)]
@@ -60,7 +62,7 @@ enum Command {
         output: Option<PathBuf>,
     },
     /// Read, parse and resolve every request and print its status; writes nothing.
-    #[command(after_help = EXIT_HELP)]
+    #[command(after_help = CHECK_HELP)]
     Check {
         /// The workbook to check.
         input: PathBuf,
@@ -92,15 +94,15 @@ pub fn main_with(cli: Cli) -> Exit {
     let registry = pipeline::builtin_registry();
     match cli.command {
         Command::Functions => {
-            for (plugin, f) in registry.functions() {
+            for (_, f) in registry.functions() {
                 println!("{}", f.signature());
-                println!("    {} (plugin: {plugin})", f.help);
+                println!("    {}", f.help);
                 for p in &f.positional {
                     println!("    {:<12} {}", p.name, p.help);
                 }
                 for o in &f.options {
                     let d = o.default.as_ref().map(|d| format!(" (default {d})")).unwrap_or_default();
-                    println!("    {:<12} {}{d}", format!("{}=", o.name), o.help);
+                    println!("    {:<12} {}{d}", o.written(), o.help);
                 }
                 println!();
             }

@@ -110,6 +110,18 @@ impl FunctionSpec {
     }
 }
 
+impl ParamSpec {
+    /// How the option is written in a request: `name=`, or `name(…)` for a
+    /// group option such as `base(Bay="East")`.
+    pub fn written(&self) -> String {
+        if self.kind == ParamKind::Group {
+            format!("{}(…)", self.name)
+        } else {
+            format!("{}=", self.name)
+        }
+    }
+}
+
 /// A parameter or option of a function.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -850,9 +862,11 @@ impl Function {
     ];
 
     /// The function of a fit-language name (`log`, `sin`, …), case-insensitive.
+    /// `ln` is another name of `log`, the natural logarithm (the
+    /// spreadsheet's LN; its LOG is base 10, here `log10`).
     pub fn from_name(name: &str) -> Option<Function> {
         Some(match name.to_ascii_lowercase().as_str() {
-            "log" => Function::Log,
+            "log" | "ln" => Function::Log,
             "log10" => Function::Log10,
             "exp" => Function::Exp,
             "sqrt" => Function::Sqrt,
@@ -1228,6 +1242,7 @@ mod tests {
             let num = (func.apply(x + h) - func.apply(x - h)) / (2.0 * h);
             assert!((func.derivative(x) - num).abs() < 1e-8, "{}", func.name());
             assert_eq!(Function::from_name(func.name()), Some(func));
+            assert_eq!(Function::from_name("ln"), Some(Function::Log), "ln is the natural log, as log is");
         }
     }
 }

@@ -215,7 +215,7 @@ fn cases() -> Vec<Case> {
         request_error("nesting_4000_deep", &format!("#linear(Yield, {}Light{})", "(".repeat(4_000), ")".repeat(4_000)), &["nested too deeply: more than 64 levels"]),
         request_error("too_many_terms", &format!("#linear(Yield, {})", vec!["Light"; 300].join(" + ")), &["more than 256 levels"]),
         request_error("unknown_function", "#lineer(Yield, Light)", &["there is no function #lineer", "did you mean #linear?"]),
-        request_error("unknown_transform", "#linear(Yield, ln(Light))", &["'ln' is not a function of the fit language"]),
+        request_error("unknown_transform", "#linear(Yield, logit(Light))", &["'logit' is not a function of the fit language"]),
         request_error("unknown_option", "#linear(Yield, Light, levl=0.9)", &["#linear has no option 'levl'", "did you mean level?"]),
         request_error("bad_level", "#linear(Yield, Light, level=95)", &["level=95 is not between 0 and 1"]),
         request_error("bad_choice", "#linear(Yield, Light, missing=maybe)", &["missing=maybe is not one of the choices", "missing takes skip, stop"]),
