@@ -371,6 +371,8 @@ pub fn through_tool(name: &str, request: &str) -> Option<Lres> {
     assert_eq!(coefs.len(), d.coefficients.len(), "{name}: {coefs:?}");
     let stat = |label: &str| super::output::statistic(&out, "nist", label);
     let need = |label: &str| stat(label).unwrap_or_else(|| panic!("{name}: no '{label}' on the Diagnostics sheet"));
+    // The analysis of variance is a grid: source rows by figure columns.
+    let grid = |source: &str, column: &str| super::output::anova(&out, "nist", source, column).unwrap_or_else(|| panic!("{name}: no '{source}' × '{column}' in the analysis of variance"));
     let r2_label = if d.intercept { "R²" } else { "R² (uncentred, no intercept)" };
     let a = d.anova.clone().unwrap_or_else(|| panic!("{name}: no certified ANOVA table"));
     // F of an exact fit is certified as Infinity; the output shows an
@@ -384,12 +386,12 @@ pub fn through_tool(name: &str, request: &str) -> Option<Lres> {
         name: name.to_string(),
         coefficients: coefs.iter().zip(&d.coefficients).map(|(c, b)| lre(c.estimate.unwrap_or(f64::NAN), *b, 15.0)).collect(),
         std_devs: coefs.iter().zip(&d.std_devs).map(|(c, b)| lre(c.std_error.unwrap_or(f64::NAN), *b, 15.0)).collect(),
-        residual_sd: lre(need("Root mean squared error"), d.residual_sd, 15.0),
+        residual_sd: lre(need("Residual standard error"), d.residual_sd, 15.0),
         r_squared: lre(need(r2_label), d.r_squared, 15.0),
-        ss: [lre(need("Sum of squares, regression"), a.ss_reg, 15.0), lre(need("Sum of squares, residual"), a.ss_res, 15.0)],
-        ms: [lre(need("Mean square, regression"), a.ms_reg, 15.0), lre(need("Mean square, residual"), a.ms_res, 15.0)],
+        ss: [lre(grid("Explained by the terms", "Sum of squares"), a.ss_reg, 15.0), lre(grid("Left in the residuals", "Sum of squares"), a.ss_res, 15.0)],
+        ms: [lre(grid("Explained by the terms", "Mean square"), a.ms_reg, 15.0), lre(grid("Left in the residuals", "Mean square"), a.ms_res, 15.0)],
         f,
-        df: [lre(need("Degrees of freedom, regression"), a.df_reg, 15.0), lre(need("Degrees of freedom, residual"), a.df_res, 15.0)],
+        df: [lre(grid("Explained by the terms", "Degrees of freedom"), a.df_reg, 15.0), lre(grid("Left in the residuals", "Degrees of freedom"), a.df_res, 15.0)],
     };
     let _ = std::fs::remove_dir_all(&dir);
     Some(l)
