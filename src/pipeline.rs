@@ -9,7 +9,7 @@ use crate::cells::{CellAddress, Workbook};
 use crate::fits::Registry;
 use crate::layout;
 use crate::report::{Report, RowsPlace, RunInfo, Status};
-use crate::problems::{closest, Problem};
+use crate::problems::{closest, Problem, Severity};
 use crate::read::{self, ReadError};
 use crate::resolve::{self, FoundRequest};
 use crate::syntax;
@@ -219,6 +219,7 @@ fn unfinished_report(f: &FoundRequest, function: &str) -> Report {
         rows_left_out: 0,
         status: Status::Error,
         messages: Vec::new(),
+        notes: Vec::new(),
         outcome: None,
         place: None,
         recipe: None,
@@ -350,8 +351,10 @@ fn evaluate_one(
     for w in outcome.warnings.iter().skip(term_warnings.len()) {
         problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
     }
-    report.messages = problems.iter().map(|p| p.one_line()).collect();
-    report.status = if problems.is_empty() { Status::Ok } else { Status::Warning };
+    let (notes, warnings): (Vec<&Problem>, Vec<&Problem>) = problems.iter().partition(|p| p.severity == Severity::Note);
+    report.messages = warnings.iter().map(|p| p.one_line()).collect();
+    report.notes = notes.iter().map(|p| p.one_line()).collect();
+    report.status = if warnings.is_empty() { Status::Ok } else { Status::Warning };
     report.place = Some(RowsPlace {
         sheet: pl.sheet.clone(),
         header_row: pl.header_row,

@@ -16,6 +16,9 @@ pub enum Severity {
     Error,
     /// The result exists but the reader should know something about it.
     Warning,
+    /// Something the reader may like to know that needs no action (rows
+    /// left out, an option under its old name).
+    Note,
 }
 
 impl Severity {
@@ -24,6 +27,7 @@ impl Severity {
         match self {
             Severity::Error => "error",
             Severity::Warning => "warning",
+            Severity::Note => "note",
         }
     }
 }
@@ -55,6 +59,11 @@ impl Problem {
     /// A new warning with a message.
     pub fn warning(message: impl Into<String>) -> Self {
         Problem { severity: Severity::Warning, ..Problem::error(message) }
+    }
+
+    /// A new note with a message.
+    pub fn note(message: impl Into<String>) -> Self {
+        Problem { severity: Severity::Note, ..Problem::error(message) }
     }
 
     /// Adds the cell.

@@ -161,6 +161,8 @@ pub struct Report {
     pub status: Status,
     /// The error message (one line) or the warnings.
     pub messages: Vec<String>,
+    /// Notes that need no action (rows left out, an option's old name).
+    pub notes: Vec<String>,
     /// The fit's outcome, when it ran.
     pub outcome: Option<FitOutcome>,
     /// Where per-row results go.

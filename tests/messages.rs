@@ -102,7 +102,7 @@ fn base_level_and_missing_rows() {
     let a = &s.reports[0];
     assert_eq!(a.rows_used, 18);
     assert_eq!(a.rows_left_out, 2);
-    assert!(a.messages.iter().any(|m| m.contains("2 rows left out: 1 with a blank cell (first Weekly!B6), 1 with text in a numeric column (first Weekly!B10)")), "{:?}", a.messages);
+    assert!(a.notes.iter().any(|m| m.contains("2 rows left out: 1 with a blank cell (first Weekly!B6), 1 with text in a numeric column (first Weekly!B10)")), "{:?}", a.notes);
     let terms: Vec<String> = a.outcome.as_ref().unwrap().coefficients.iter().map(|c| c.term.clone()).collect();
     assert_eq!(terms, ["Intercept", "Light", "Bay=East", "Bay=North"]);
     assert_eq!(s.reports[1].status, Status::Error);

@@ -168,6 +168,7 @@ mod tests {
             rows_left_out: 0,
             status: Status::Ok,
             messages: Vec::new(),
+            notes: Vec::new(),
             outcome: Some(FitOutcome { rows: vec![col(RowRole::Fitted, fitted), col(RowRole::Residual, resid.clone()), col(RowRole::StandardizedResidual, resid)], ..Default::default() }),
             place: None,
             recipe: None,

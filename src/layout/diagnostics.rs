@@ -139,7 +139,7 @@ fn anova(s: &mut Sheet, mut row: u32, fits: &[(&Report, &FitOutcome)]) -> u32 {
 /// Each fit's warnings (and rows left out) and notes from `row`.
 fn messages(s: &mut Sheet, mut row: u32, fits: &[(&Report, &FitOutcome)]) {
     for (r, o) in fits {
-        if r.messages.is_empty() && o.notes.is_empty() {
+        if r.messages.is_empty() && r.notes.is_empty() && o.notes.is_empty() {
             continue;
         }
         s.put(row, 0, OutCell::text(format!("Warnings and notes — {}", r.name), Style::Header));
@@ -148,7 +148,7 @@ fn messages(s: &mut Sheet, mut row: u32, fits: &[(&Report, &FitOutcome)]) {
             s.put(row, 0, OutCell::text(m, Style::Warning));
             row += 1;
         }
-        for m in &o.notes {
+        for m in r.notes.iter().chain(&o.notes) {
             s.put(row, 0, OutCell::text(format!("note: {m}"), Style::Plain));
             row += 1;
         }

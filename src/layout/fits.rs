@@ -38,7 +38,8 @@ pub(super) fn sheet(fits_n: &str, coef_n: &str, reports: &[Report], first_coef_r
             Status::Error => Style::Error,
         };
         fits.put(row, 7, OutCell::text(r.status.as_str(), st));
-        fits.put(row, 8, OutCell::text(r.messages.join(" | "), Style::Plain));
+        let notes = r.notes.iter().map(|n| format!("note: {n}"));
+        fits.put(row, 8, OutCell::text(r.messages.iter().cloned().chain(notes).collect::<Vec<_>>().join(" | "), Style::Plain));
     }
     fits.close_table(0, 9);
 

@@ -408,7 +408,8 @@ pub fn resolve(
     }
     let mut warnings = Vec::new();
     if let Some(d) = left_out.describe() {
-        warnings.push(Problem::warning(d).at(cell.clone()));
+        // Leaving out unusable rows is what was asked (missing=skip): a note.
+        warnings.push(Problem::note(d).at(cell.clone()));
     }
     let request = FitRequest {
         protocol: PROTOCOL_VERSION,
