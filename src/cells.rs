@@ -54,13 +54,15 @@ impl fmt::Display for CellAddress {
 }
 
 /// A sheet name as it must appear before `!` in an A1 reference: bare when it
-/// is letters, digits and underscores not starting with a digit, otherwise in
-/// single quotes with inner quotes doubled (the workbook formats' rule).
+/// is letters, digits and underscores not starting with a digit and not
+/// readable as a cell (`AB12`, `R1C1`, `R2`, `C`), otherwise in single
+/// quotes with inner quotes doubled (the workbook formats' rule).
 pub fn quote_sheet_name(name: &str) -> String {
     let bare = !name.is_empty()
         && name.chars().all(|c| c.is_alphanumeric() || c == '_' || c == '.')
         && !name.starts_with(|c: char| c.is_ascii_digit() || c == '.')
-        && !looks_like_cell(name);
+        && !looks_like_cell(name)
+        && !looks_like_r1c1(name);
     if bare {
         name.to_string()
     } else {
@@ -74,6 +76,16 @@ fn looks_like_cell(s: &str) -> bool {
     let letters = s.chars().take_while(|c| c.is_ascii_alphabetic()).count();
     let rest = &s[letters..];
     (1..=3).contains(&letters) && !rest.is_empty() && rest.chars().all(|c| c.is_ascii_digit())
+}
+
+/// True when `s` is, or starts as, a reference of the R1C1 style (`R`, `C`,
+/// `RC`, `R2`, `C3`, `R1C1`, `RC4…`), which a reader would take for a cell.
+fn looks_like_r1c1(s: &str) -> bool {
+    let u = s.to_ascii_uppercase();
+    if matches!(u.as_str(), "R" | "C" | "RC") {
+        return true;
+    }
+    ["RC", "R", "C"].iter().any(|p| u.strip_prefix(p).is_some_and(|rest| rest.starts_with(|c: char| c.is_ascii_digit())))
 }
 
 /// Column letters of a zero-based column: 0 → `A`, 25 → `Z`, 26 → `AA`,
@@ -472,6 +484,13 @@ mod tests {
         assert_eq!(CellAddress::new("Bay 2", 0, 0).to_string(), "'Bay 2'!A1");
         assert_eq!(CellAddress::new("O'Neil", 0, 0).to_string(), "'O''Neil'!A1");
         assert_eq!(CellAddress::new("AB12", 0, 0).to_string(), "'AB12'!A1");
+        // R1C1-style names are quoted too (the rule rust_xlsxwriter's utility::quote_sheet_name follows).
+        for n in ["R1C1", "r2", "C3", "RC", "R", "RC12x"] {
+            assert_eq!(quote_sheet_name(n), format!("'{n}'"), "{n}");
+        }
+        for n in ["Results", "Crops", "Data_2", "Ωmega", "Данные"] {
+            assert_eq!(quote_sheet_name(n), n, "{n}");
+        }
     }
 
     #[test]

@@ -420,13 +420,51 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         input_sha256: sha,
         time: iso_time(created),
     };
-    let mut laid = layout::lay_out(&book, &summary.reports, &info);
     // Told from the content, not the name: an ods saved as .xlsx still has
     // OpenFormula syntax, which would be a broken formula in xlsx.
-    laid.keep_formulas = format != read::Format::Ods;
-    write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    let keep_formulas = format != read::Format::Ods;
+    let lay_out = |reports: &[Report]| layout::Book { keep_formulas, ..layout::lay_out(&book, reports, &info) };
+    let mut laid = lay_out(&summary.reports);
+    // A part the output cannot hold (a chart, a calculator, a list) costs
+    // that part alone: its request gets a warning, shown at its cell, and
+    // the book is laid out again with the part left out.
+    let refused = write::check_parts(&laid);
+    if !refused.is_empty() {
+        for r in &refused {
+            note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), true);
+        }
+        laid = lay_out(&summary.reports);
+        let again = write::check_parts(&laid);
+        laid.leave_out(&again);
+    }
+    let skipped = write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    for r in &skipped {
+        note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), false);
+    }
     summary.output = Some(out);
     Ok(summary)
+}
+
+/// Records a part of the output that was left out as a warning at the
+/// request it belongs to (or of the run), and, when `mark` is set, in that
+/// request's report so its cell and the Fits sheet show it.
+fn note_refused(summary: &mut Summary, book: &Workbook, laid: &layout::Book, r: &layout::Refused, file: &str, mark: bool) {
+    let (owner, what) = laid.owner_of(book, r);
+    let mut p = Problem::warning(format!("{what} could not be written ({}), so it is left out; the rest of the output is written", r.why))
+        .help("this is a limit of the output format; please report it with the workbook if the request looks ordinary")
+        .in_file(file);
+    if let Some(cell) = owner {
+        p = p.at(cell.clone());
+        if mark {
+            if let Some(rep) = summary.reports.iter_mut().find(|rep| rep.cell == cell) {
+                rep.messages.push(p.one_line());
+                if rep.status == Status::Ok {
+                    rep.status = Status::Warning;
+                }
+            }
+        }
+    }
+    summary.problems.push(p);
 }
 
 #[cfg(test)]
