@@ -41,6 +41,8 @@ pub enum RunError {
     OutputIsInput { path: PathBuf },
     /// The output must be an xlsx file.
     OutputFormat { path: PathBuf },
+    /// The output's folder does not exist or is not a folder.
+    OutputFolder { dir: PathBuf, exists: bool },
     /// Writing failed.
     Write(WriteError),
 }
@@ -56,6 +58,13 @@ impl fmt::Display for RunError {
                 path.display()
             ),
             RunError::OutputFormat { path } => write!(f, "the output {} must end in .xlsx (plumb writes xlsx workbooks)", path.display()),
+            RunError::OutputFolder { dir, exists: false } => {
+                write!(f, "the folder {} does not exist; create it or choose another -o", dir.display())
+            }
+            RunError::OutputFolder { dir, exists: true } => write!(f, "{} is not a folder; choose another -o", dir.display()),
+            RunError::Write(WriteError::Folder { dir, source }) => {
+                write!(f, "the folder {} cannot be written to ({source}); choose another -o", dir.display())
+            }
             RunError::Write(e) => {
                 write!(f, "{e}")?;
                 if let Some(s) = std::error::Error::source(e) {
@@ -401,6 +410,10 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     }
     if !out.extension().is_some_and(|e| e.eq_ignore_ascii_case("xlsx")) {
         return Err(RunError::OutputFormat { path: out });
+    }
+    let dir = out.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    if !dir.is_dir() {
+        return Err(RunError::OutputFolder { dir: dir.to_path_buf(), exists: dir.exists() });
     }
     let bytes = std::fs::read(&config.input).map_err(|source| RunError::Input { path: config.input.clone(), source })?;
     let sha = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();

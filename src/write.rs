@@ -27,6 +27,9 @@ pub enum WriteError {
     Xlsx { path: PathBuf, source: XlsxError },
     /// A file-system step failed.
     Io { path: PathBuf, action: &'static str, source: std::io::Error },
+    /// The output's folder cannot be written to (the writer's temporary
+    /// files go there first).
+    Folder { dir: PathBuf, source: std::io::Error },
 }
 
 impl fmt::Display for WriteError {
@@ -34,6 +37,7 @@ impl fmt::Display for WriteError {
         match self {
             WriteError::Xlsx { path, .. } => write!(f, "could not write the output workbook {}", path.display()),
             WriteError::Io { path, action, .. } => write!(f, "could not {action} {}", path.display()),
+            WriteError::Folder { dir, .. } => write!(f, "could not write in the folder {}", dir.display()),
         }
     }
 }
@@ -42,7 +46,7 @@ impl std::error::Error for WriteError {
     fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
         match self {
             WriteError::Xlsx { source, .. } => Some(source),
-            WriteError::Io { source, .. } => Some(source),
+            WriteError::Io { source, .. } | WriteError::Folder { source, .. } => Some(source),
         }
     }
 }
@@ -612,7 +616,13 @@ pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOption
     };
     let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
     let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
-    let result = build(source, book, &tmp, &dir, opts);
+    // Errors name the output, not the temporary file the user never sees;
+    // a folder the writer cannot use is said plainly.
+    let result = build(source, book, &tmp, &dir, opts).map_err(|e| match e {
+        WriteError::Xlsx { source: XlsxError::TempFileError(_, io), .. } => WriteError::Folder { dir: dir.clone(), source: io },
+        WriteError::Xlsx { source, .. } => WriteError::Xlsx { path: out.to_path_buf(), source },
+        other => other,
+    });
     let result = result.and_then(|refused| {
         std::fs::rename(&tmp, out).map_err(|source| WriteError::Io { path: out.to_path_buf(), action: "move the finished output to", source })?;
         Ok(refused)
@@ -671,6 +681,16 @@ fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOpt
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_folder_the_writer_cannot_use_is_named_not_its_temporary_file() {
+        let dir = std::env::temp_dir().join(format!("plumb-write-missing-{}", std::process::id())).join("nope");
+        let out = dir.join("out.xlsx");
+        let opts = WriteOptions { created_unix: 0, zip_level: 1 };
+        let e = write_book(&Workbook { sheets: Vec::new() }, &Book::default(), &out, &opts).expect_err("the folder is missing");
+        assert!(matches!(&e, WriteError::Folder { dir: d, .. } if *d == dir), "{e:?}");
+        assert_eq!(e.to_string(), format!("could not write in the folder {}", dir.display()));
+    }
 
     #[test]
     fn six_significant_digits() {

@@ -6,7 +6,7 @@ mod common;
 use common::run::{plumb, scratch};
 use common::workbooks;
 use std::path::{Path, PathBuf};
-use std::process::Output;
+use std::process::{Command, Output};
 
 fn dir(name: &str) -> PathBuf {
     scratch(&format!("cli-{name}"))
@@ -105,6 +105,56 @@ fn the_output_may_not_be_the_input() {
         assert!(String::from_utf8_lossy(&o.stderr).contains("is the input itself"));
     }
     assert_eq!(std::fs::read(d.join("book.xlsx")).unwrap(), before);
+}
+
+#[test]
+fn an_output_folder_that_cannot_be_used_is_said_plainly() {
+    let d = dir("folder");
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
+    std::fs::write(d.join("notes.txt"), "a file, not a folder").unwrap();
+    let before = common::run::files_in(&d);
+    for (target, want) in [
+        ("nope/out.xlsx", "error: the folder nope does not exist; create it or choose another -o"),
+        ("nope/deeper/out.xlsx", "error: the folder nope/deeper does not exist; create it or choose another -o"),
+        ("notes.txt/out.xlsx", "error: notes.txt is not a folder; choose another -o"),
+    ] {
+        let o = plumb(&["run", "book.xlsx", "-o", target], &d);
+        no_panic(&o);
+        let err = String::from_utf8_lossy(&o.stderr);
+        // Status 2: nothing was written.
+        assert_eq!(o.status.code(), Some(2), "{target}: {err}");
+        assert!(err.contains(want), "{target}: {err}");
+        assert!(err.contains("nothing was written"), "{err}");
+        assert!(!err.contains("emporary") && !err.contains(".tmp"), "no temporary name: {err}");
+    }
+    assert_eq!(common::run::files_in(&d), before, "nothing written");
+    // A folder that cannot be written to. Permissions do not bind root, so
+    // the check is made only where they do.
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        let ro = d.join("locked");
+        std::fs::create_dir(&ro).unwrap();
+        std::fs::set_permissions(&ro, std::fs::Permissions::from_mode(0o555)).unwrap();
+        if std::fs::write(ro.join("probe"), "x").is_ok() {
+            println!("notice: permissions do not apply to this user (root); the read-only folder case is not checked");
+        } else {
+            let o = plumb(&["run", "book.xlsx", "-o", "locked/out.xlsx"], &d);
+            let err = String::from_utf8_lossy(&o.stderr);
+            assert_eq!(o.status.code(), Some(2), "{err}");
+            assert!(err.contains("error: the folder locked cannot be written to ("), "{err}");
+            assert!(err.contains("choose another -o"), "{err}");
+            assert!(!err.contains(".tmp"), "{err}");
+        }
+        std::fs::set_permissions(&ro, std::fs::Permissions::from_mode(0o755)).unwrap();
+    }
+}
+
+#[test]
+fn the_help_says_what_status_2_means() {
+    let o = Command::new(common::run::plumb_exe()).args(["run", "--help"]).output().unwrap();
+    let help = String::from_utf8_lossy(&o.stdout);
+    assert!(help.contains("2 nothing was written (the input could not be used, or the output cannot be written there)"), "{help}");
 }
 
 #[test]
