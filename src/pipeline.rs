@@ -160,6 +160,19 @@ fn same_file(input: &Path, out: &Path) -> bool {
         && a.file_name().map(|s| s.to_string_lossy().to_lowercase()) == b.file_name().map(|s| s.to_string_lossy().to_lowercase())
 }
 
+/// The lock file a spreadsheet application keeps beside a workbook it has
+/// open, when there is one beside `out` (and `out` exists): `.~lock.NAME#`
+/// (LibreOffice) or `~$NAME` (Microsoft Office; its programs also shorten a
+/// long name by its first two characters, `~$ME…`, from memory).
+pub fn open_lock(out: &Path) -> Option<PathBuf> {
+    let name = out.file_name()?.to_string_lossy().into_owned();
+    if !out.is_file() {
+        return None;
+    }
+    let shortened: String = name.chars().skip(2).collect();
+    [format!(".~lock.{name}#"), format!("~${name}"), format!("~${shortened}")].into_iter().map(|n| out.with_file_name(n)).find(|p| p.is_file())
+}
+
 /// Unix seconds as `YYYY-MM-DD hh:mm:ss`.
 pub fn iso_time(unix: i64) -> String {
     let (y, m, d, hh, mm, ss) = crate::cells::civil_from_unix(unix);
@@ -450,7 +463,20 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         let again = write::check_parts(&laid);
         laid.leave_out(&again);
     }
+    let lock = open_lock(&out);
     let skipped = write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    // Replaced while open: the application still shows the old results,
+    // and saving there would put them back over the new ones.
+    if let Some(lock) = lock {
+        let lock_name = lock.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        summary.problems.push(
+            Problem::warning(format!(
+                "the output seems to be open in a spreadsheet application (the lock file {lock_name} is beside it); it was replaced, but the application still shows the old results, and saving it there would overwrite the new ones"
+            ))
+            .help("close it without saving and open it again; if the new results do not show, close it and run again")
+            .in_file(out.display().to_string()),
+        );
+    }
     for r in &skipped {
         note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), false);
     }

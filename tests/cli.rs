@@ -158,6 +158,32 @@ fn the_help_says_what_status_2_means() {
 }
 
 #[test]
+fn an_output_open_in_a_spreadsheet_application_is_replaced_with_a_warning() {
+    // Lock files as LibreOffice (`.~lock.NAME#`) and Microsoft Office (`~$NAME`) leave them.
+    for (case, lock) in [("lo", ".~lock.book.fitted.xlsx#"), ("ms", "~$book.fitted.xlsx")] {
+        let d = dir(&format!("lock-{case}"));
+        small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
+        // No lock: no warning.
+        let o = plumb(&["run", "book.xlsx"], &d);
+        assert_eq!(o.status.code(), Some(0));
+        assert!(!String::from_utf8_lossy(&o.stderr).contains("seems to be open"));
+        // The old output, open in an application.
+        std::fs::write(d.join("book.fitted.xlsx"), "the old results").unwrap();
+        std::fs::write(d.join(lock), "user,host,2026-01-01").unwrap();
+        let o = plumb(&["run", "book.xlsx"], &d);
+        no_panic(&o);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(0), "{err}");
+        assert!(err.contains("book.fitted.xlsx: warning: the output seems to be open in a spreadsheet application"), "{err}");
+        assert!(err.contains(&format!("(the lock file {lock} is beside it)")), "{err}");
+        assert!(err.contains("close it and run again"), "{err}");
+        // Still written: the new results replaced the old file; the lock is left alone.
+        assert_eq!(common::output::coefficients(&d.join("book.fitted.xlsx"), "Data!E1").len(), 2);
+        assert!(d.join(lock).exists());
+    }
+}
+
+#[test]
 fn pinned_time_gives_identical_bytes() {
     let d = dir("repro");
     small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
