@@ -56,7 +56,7 @@ enum Command {
     Run {
         /// The workbook (xlsx, xlsm, xlsb, xls or ods). It is never changed.
         input: PathBuf,
-        /// Where to write (an .xlsx file); default NAME.fitted.xlsx beside the input.
+        /// Where to write (an .xlsx file); default beside the input: NAME.fitted.xlsx for NAME.xlsx, NAME.EXT-fitted.xlsx for other inputs (book.xls-fitted.xlsx), so inputs of one name in several formats keep their own outputs.
         #[arg(short, long)]
         output: Option<PathBuf>,
     },

@@ -24,7 +24,7 @@ use std::path::{Path, PathBuf};
 pub struct RunConfig {
     /// The workbook to read.
     pub input: PathBuf,
-    /// Where to write; `None` for `NAME.fitted.xlsx` beside the input.
+    /// Where to write; `None` for [`default_output`] beside the input.
     pub output: Option<PathBuf>,
     /// The time to record, seconds since 1970 (UTC); `None` for now.
     pub created_unix: Option<i64>,
@@ -126,10 +126,19 @@ pub fn builtin_registry() -> Registry {
     Registry::builtin()
 }
 
-/// `NAME.fitted.xlsx` beside the input.
+/// The output beside the input when no `-o` is given: `NAME.fitted.xlsx`
+/// for `NAME.xlsx`, and the whole file name with `-fitted.xlsx` for any
+/// other input (`book.xls-fitted.xlsx`, `book.ods-fitted.xlsx`,
+/// `book.xlsm-fitted.xlsx`). Names cannot collide: the first kind ends in
+/// `.fitted.xlsx`, the second never does, and each is made from a name no
+/// other input in the folder has — so `book.xls`, `book.ods` and
+/// `book.xlsx` side by side keep three outputs.
 pub fn default_output(input: &Path) -> PathBuf {
-    let stem = input.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "workbook".into());
-    input.with_file_name(format!("{stem}.fitted.xlsx"))
+    let name = input.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "workbook".into());
+    match name.strip_suffix(".xlsx").filter(|stem| !stem.is_empty()) {
+        Some(stem) => input.with_file_name(format!("{stem}.fitted.xlsx")),
+        None => input.with_file_name(format!("{name}-fitted.xlsx")),
+    }
 }
 
 /// Whether `out` names the same file as `input`: the same path once links
@@ -554,6 +563,28 @@ mod tests {
 
     #[test]
     fn default_output_sits_beside_the_input() {
-        assert_eq!(default_output(Path::new("dir/book.xlsx")), PathBuf::from("dir/book.fitted.xlsx"));
+        let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
+        assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");
+        assert_eq!(out("dir/book.xls"), "dir/book.xls-fitted.xlsx");
+        assert_eq!(out("book.ods"), "book.ods-fitted.xlsx");
+        assert_eq!(out("book.xlsm"), "book.xlsm-fitted.xlsx");
+        assert_eq!(out("book.xlsb"), "book.xlsb-fitted.xlsx");
+        assert_eq!(out("book.xls.xlsx"), "book.xls.fitted.xlsx");
+        assert_eq!(out("book"), "book-fitted.xlsx");
+        // Two names differing in case are two files where case matters.
+        assert_eq!(out("book.XLSX"), "book.XLSX-fitted.xlsx");
+        assert_eq!(out(".xlsx"), ".xlsx-fitted.xlsx");
+    }
+
+    #[test]
+    fn default_outputs_of_different_inputs_differ() {
+        // Every pair of these names, as they might stand in one folder.
+        let names = ["book.xlsx", "book.xls", "book.ods", "book.xlsm", "book.xlsb", "book", "book.xls.xlsx", "book.xls-fitted.xlsx", "book.fitted.xlsx", "book.XLSX", "book.fitted"];
+        let outs: Vec<PathBuf> = names.iter().map(|n| default_output(Path::new(n))).collect();
+        for i in 0..names.len() {
+            for j in i + 1..names.len() {
+                assert_ne!(outs[i], outs[j], "{} and {}", names[i], names[j]);
+            }
+        }
     }
 }

@@ -184,6 +184,52 @@ fn an_output_open_in_a_spreadsheet_application_is_replaced_with_a_warning() {
 }
 
 #[test]
+fn inputs_of_one_name_in_other_formats_keep_their_own_outputs() {
+    use common::workbooks::{minimal_ods, minimal_xls, XlsCell, XlsSheet};
+    let d = dir("same-stem");
+    // Three workbooks named book, each with its own slope: 2 (xlsx), 3 (xls), 5 (ods).
+    small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light, name=slope)")]);
+    let noise = |i: u32| if (i + 1) % 4 < 2 { 0.5 } else { -0.5 };
+    let mut cells = vec![(0, 0, XlsCell::Label("Light")), (0, 1, XlsCell::Label("Yield")), (0, 3, XlsCell::Label("#linear(Yield, Light, name=slope)"))];
+    for i in 0..12u16 {
+        cells.push((i + 1, 0, XlsCell::Number { x: f64::from(i), date: false }));
+        cells.push((i + 1, 1, XlsCell::Number { x: 3.0 * f64::from(i) + noise(u32::from(i)), date: false }));
+    }
+    std::fs::write(d.join("book.xls"), minimal_xls(&[XlsSheet { name: "Data", state: 0, cells, merged: vec![] }], false)).unwrap();
+    let num = |x: f64| format!(r#"<table:table-cell office:value-type="float" office:value="{x}"><text:p>{x}</text:p></table:table-cell>"#);
+    let txt = |t: &str| format!(r#"<table:table-cell office:value-type="string"><text:p>{t}</text:p></table:table-cell>"#);
+    let mut rows = format!("<table:table-row>{}{}<table:table-cell/>{}</table:table-row>", txt("Light"), txt("Yield"), txt("#linear(Yield, Light, name=slope)"));
+    for i in 0..12u32 {
+        rows.push_str(&format!("<table:table-row>{}{}</table:table-row>", num(f64::from(i)), num(5.0 * f64::from(i) + noise(i))));
+    }
+    std::fs::write(d.join("book.ods"), minimal_ods("", &format!(r#"<table:table table:name="Data">{rows}</table:table>"#))).unwrap();
+
+    for input in ["book.xlsx", "book.xls", "book.ods"] {
+        let o = plumb(&["run", input], &d);
+        no_panic(&o);
+        assert_eq!(o.status.code(), Some(0), "{input}: {}", String::from_utf8_lossy(&o.stderr));
+    }
+    assert_eq!(
+        common::run::files_in(&d),
+        ["book.fitted.xlsx", "book.ods", "book.ods-fitted.xlsx", "book.xls", "book.xls-fitted.xlsx", "book.xlsx"],
+        "three outputs, none replacing another"
+    );
+    for (out, input, slope) in [("book.fitted.xlsx", "book.xlsx", 2.0), ("book.xls-fitted.xlsx", "book.xls", 3.0), ("book.ods-fitted.xlsx", "book.ods", 5.0)] {
+        let c = common::output::coefficients(&d.join(out), "slope");
+        // The noise + − − + sums to 0 and has Σ j·noise = 0 over each period of
+        // four rows, so over 12 rows the fitted slope is the true one (arithmetic).
+        let b = c[1].estimate.unwrap();
+        assert!((b - slope).abs() < 1e-9, "{out}: slope {b}, expected {slope}");
+        let about = common::output::table(&d.join(out), "About");
+        assert!(about.iter().any(|r| r.get(1).and_then(common::output::text) == Some(input)), "{out} names its input {input}");
+    }
+    // --help says so.
+    let o = Command::new(common::run::plumb_exe()).args(["run", "--help"]).output().unwrap();
+    let help = String::from_utf8_lossy(&o.stdout);
+    assert!(help.contains("NAME.fitted.xlsx for NAME.xlsx, NAME.EXT-fitted.xlsx for other inputs"), "{help}");
+}
+
+#[test]
 fn pinned_time_gives_identical_bytes() {
     let d = dir("repro");
     small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
