@@ -435,6 +435,21 @@ impl Grid {
         self.formulas.iter().map(|(k, v)| (*k, &**v))
     }
 
+    /// Whether a cell holds a formula without a stored result: the file was
+    /// saved by a program that writes formulas without computing them, so
+    /// its value reads as blank. The reader keeps the difference: a formula
+    /// whose result is empty text reads as `Text("")`, one with no result as
+    /// `Empty` (xlsx and ods; an xls formula always stores its result).
+    pub fn is_uncomputed(&self, row: u32, col: u32) -> bool {
+        self.formulas.contains_key(&(row, col)) && matches!(self.value(row, col), Value::Empty)
+    }
+
+    /// Every formula cell without a stored result ([`Grid::is_uncomputed`]),
+    /// in row-major order.
+    pub fn uncomputed(&self) -> impl Iterator<Item = (u32, u32)> + '_ {
+        self.formulas.keys().copied().filter(|&(r, c)| matches!(self.value(r, c), Value::Empty))
+    }
+
     /// Every non-empty cell (value or formula) in row-major order.
     pub fn cells(&self) -> impl Iterator<Item = (u32, u32, Value<'_>)> + '_ {
         let cols = self.cols.max(1) as usize;

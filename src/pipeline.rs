@@ -195,8 +195,39 @@ fn file_label(path: &Path) -> String {
 /// Reads the input and evaluates every request; writes nothing.
 pub fn evaluate(input: &Path, registry: &Registry) -> Result<(Workbook, Summary), RunError> {
     let book = read::read_workbook(input).map_err(RunError::Read)?;
-    let summary = evaluate_book(&book, &file_label(input), registry);
+    let mut summary = evaluate_book(&book, &file_label(input), registry);
+    note_uncomputed(&mut summary, &book, &file_label(input));
     Ok((book, summary))
+}
+
+/// One warning per sheet whose formulas have no stored results (a file
+/// saved by a program that writes formulas without computing them), at
+/// the first such cell: plumb reads those cells as blank, which explains a
+/// request's blank or missing values.
+pub fn uncomputed_formulas(book: &Workbook) -> Vec<Problem> {
+    let mut out = Vec::new();
+    for g in &book.sheets {
+        let mut cells = g.uncomputed();
+        let Some((r, c)) = cells.next() else { continue };
+        let others = cells.count();
+        let what = match others {
+            0 => "this formula has no stored result, so plumb reads it as blank".to_string(),
+            n => format!("this cell and {n} other formula cell{} of {} have no stored results, so plumb reads them as blank", if n == 1 { "" } else { "s" }, g.name),
+        };
+        out.push(
+            Problem::warning(format!("{what}: the file was saved by a program that does not compute formulas"))
+                .at(CellAddress::new(g.name.clone(), r, c))
+                .help("open the file in a spreadsheet application and save it again, which stores the results; then run plumb again"),
+        );
+    }
+    out
+}
+
+/// Puts the [`uncomputed_formulas`] warnings first among the problems:
+/// they explain the requests' blank cells.
+fn note_uncomputed(summary: &mut Summary, book: &Workbook, file: &str) {
+    let found: Vec<Problem> = uncomputed_formulas(book).into_iter().map(|p| p.in_file(file)).collect();
+    summary.problems.splice(0..0, found);
 }
 
 /// Evaluates every request of a workbook already read: first every fit, in
@@ -442,6 +473,7 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     drop(bytes);
     let (book, format) = read::read_workbook_with_format(&config.input).map_err(RunError::Read)?;
     let mut summary = evaluate_book(&book, &file_label(&config.input), registry);
+    note_uncomputed(&mut summary, &book, &file_label(&config.input));
     let requests: HashSet<CellAddress> = summary.reports.iter().map(|r| r.cell.clone()).collect();
     for p in unwritable_cells(&book, &requests) {
         summary.problems.push(p.in_file(file_label(&config.input)));

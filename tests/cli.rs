@@ -230,6 +230,30 @@ fn inputs_of_one_name_in_other_formats_keep_their_own_outputs() {
 }
 
 #[test]
+fn formulas_without_stored_results_are_explained() {
+    // A Type column of formulas saved without their results (no <v>), as
+    // programs that write formulas without computing them save it.
+    let mut rows = String::from(r#"<row r="1"><c r="A1" t="inlineStr"><is><t>Light</t></is></c><c r="B1" t="inlineStr"><is><t>Yield</t></is></c><c r="C1" t="inlineStr"><is><t>Type</t></is></c><c r="E1" t="inlineStr"><is><t>#linear(Yield, Light + Type)</t></is></c><c r="E2" t="inlineStr"><is><t>#linear(Yield, Light, name=plain)</t></is></c></row>"#);
+    for i in 2..=13 {
+        rows.push_str(&format!(r#"<row r="{i}"><c r="A{i}"><v>{i}</v></c><c r="B{i}"><v>{}</v></c><c r="C{i}"><f>IF(A{i}&gt;6,"big","small")</f></c></row>"#, 2 * i + i % 3));
+    }
+    let d = dir("uncomputed");
+    std::fs::write(d.join("saved.xlsx"), common::workbooks::minimal_xlsx(&format!("<sheetData>{rows}</sheetData>"), false)).unwrap();
+    for cmd in ["check", "run"] {
+        let o = plumb(&[cmd, "saved.xlsx"], &d);
+        no_panic(&o);
+        let err = String::from_utf8_lossy(&o.stderr);
+        // The request using Type fails, the other fits: status 1.
+        assert_eq!(o.status.code(), Some(1), "{cmd}: {err}");
+        let want = "saved.xlsx, Data!C2: warning: this cell and 11 other formula cells of Data have no stored results, so plumb reads them as blank: the file was saved by a program that does not compute formulas
+    fix: open the file in a spreadsheet application and save it again, which stores the results; then run plumb again
+";
+        assert!(err.starts_with(want), "{cmd}: the warning comes first:
+{err}");
+    }
+}
+
+#[test]
 fn pinned_time_gives_identical_bytes() {
     let d = dir("repro");
     small_book(&d.join("book.xlsx"), &[(0, 4, "#linear(Yield, Light)")]);
