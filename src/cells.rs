@@ -54,13 +54,15 @@ impl fmt::Display for CellAddress {
 }
 
 /// A sheet name as it must appear before `!` in an A1 reference: bare when it
-/// is letters, digits and underscores not starting with a digit, otherwise in
-/// single quotes with inner quotes doubled (the workbook formats' rule).
+/// is letters, digits and underscores not starting with a digit and not
+/// readable as a cell (`AB12`, `R1C1`, `R2`, `C`), otherwise in single
+/// quotes with inner quotes doubled (the workbook formats' rule).
 pub fn quote_sheet_name(name: &str) -> String {
     let bare = !name.is_empty()
         && name.chars().all(|c| c.is_alphanumeric() || c == '_' || c == '.')
         && !name.starts_with(|c: char| c.is_ascii_digit() || c == '.')
-        && !looks_like_cell(name);
+        && !looks_like_cell(name)
+        && !looks_like_r1c1(name);
     if bare {
         name.to_string()
     } else {
@@ -74,6 +76,16 @@ fn looks_like_cell(s: &str) -> bool {
     let letters = s.chars().take_while(|c| c.is_ascii_alphabetic()).count();
     let rest = &s[letters..];
     (1..=3).contains(&letters) && !rest.is_empty() && rest.chars().all(|c| c.is_ascii_digit())
+}
+
+/// True when `s` is, or starts as, a reference of the R1C1 style (`R`, `C`,
+/// `RC`, `R2`, `C3`, `R1C1`, `RC4…`), which a reader would take for a cell.
+fn looks_like_r1c1(s: &str) -> bool {
+    let u = s.to_ascii_uppercase();
+    if matches!(u.as_str(), "R" | "C" | "RC") {
+        return true;
+    }
+    ["RC", "R", "C"].iter().any(|p| u.strip_prefix(p).is_some_and(|rest| rest.starts_with(|c: char| c.is_ascii_digit())))
 }
 
 /// Column letters of a zero-based column: 0 → `A`, 25 → `Z`, 26 → `AA`,
@@ -423,6 +435,21 @@ impl Grid {
         self.formulas.iter().map(|(k, v)| (*k, &**v))
     }
 
+    /// Whether a cell holds a formula without a stored result: the file was
+    /// saved by a program that writes formulas without computing them, so
+    /// its value reads as blank. The reader keeps the difference: a formula
+    /// whose result is empty text reads as `Text("")`, one with no result as
+    /// `Empty` (xlsx and ods; an xls formula always stores its result).
+    pub fn is_uncomputed(&self, row: u32, col: u32) -> bool {
+        self.formulas.contains_key(&(row, col)) && matches!(self.value(row, col), Value::Empty)
+    }
+
+    /// Every formula cell without a stored result ([`Grid::is_uncomputed`]),
+    /// in row-major order.
+    pub fn uncomputed(&self) -> impl Iterator<Item = (u32, u32)> + '_ {
+        self.formulas.keys().copied().filter(|&(r, c)| matches!(self.value(r, c), Value::Empty))
+    }
+
     /// Every non-empty cell (value or formula) in row-major order.
     pub fn cells(&self) -> impl Iterator<Item = (u32, u32, Value<'_>)> + '_ {
         let cols = self.cols.max(1) as usize;
@@ -472,6 +499,13 @@ mod tests {
         assert_eq!(CellAddress::new("Bay 2", 0, 0).to_string(), "'Bay 2'!A1");
         assert_eq!(CellAddress::new("O'Neil", 0, 0).to_string(), "'O''Neil'!A1");
         assert_eq!(CellAddress::new("AB12", 0, 0).to_string(), "'AB12'!A1");
+        // R1C1-style names are quoted too (the rule rust_xlsxwriter's utility::quote_sheet_name follows).
+        for n in ["R1C1", "r2", "C3", "RC", "R", "RC12x"] {
+            assert_eq!(quote_sheet_name(n), format!("'{n}'"), "{n}");
+        }
+        for n in ["Results", "Crops", "Data_2", "Ωmega", "Данные"] {
+            assert_eq!(quote_sheet_name(n), n, "{n}");
+        }
     }
 
     #[test]

@@ -15,7 +15,8 @@ pub enum Exit {
     Ok = 0,
     /// 1: some request failed; the output is still written.
     SomeFailed = 1,
-    /// 2: the input could not be used; nothing was written.
+    /// 2: nothing was written: the input could not be used, or the output
+    /// cannot be written where asked.
     Unusable = 2,
 }
 
@@ -36,7 +37,7 @@ impl From<Exit> for std::process::ExitCode {
     }
 }
 
-const EXIT_HELP: &str = "Exit status: 0 every request fitted; 1 some request failed (the output is still written, each failure shown at its cell); 2 the input could not be used (nothing written).
+const EXIT_HELP: &str = "Exit status: 0 every request fitted; 1 some request failed (the output is still written, each failure shown at its cell); 2 nothing was written (the input could not be used, or the output cannot be written there).
 
 Reproducible output: set SOURCE_DATE_EPOCH (seconds since 1970, UTC) to pin the time recorded in the output; the same input then gives the same bytes.";
 
@@ -57,7 +58,7 @@ enum Command {
     Run {
         /// The workbook (xlsx, xlsm, xlsb, xls or ods). It is never changed.
         input: PathBuf,
-        /// Where to write (an .xlsx file); default NAME.fitted.xlsx beside the input.
+        /// Where to write (an .xlsx file); default beside the input: NAME.fitted.xlsx for NAME.xlsx, NAME.EXT-fitted.xlsx for other inputs (book.xls-fitted.xlsx), so inputs of one name in several formats keep their own outputs.
         #[arg(short, long)]
         output: Option<PathBuf>,
     },

@@ -24,7 +24,7 @@ use std::path::{Path, PathBuf};
 pub struct RunConfig {
     /// The workbook to read.
     pub input: PathBuf,
-    /// Where to write; `None` for `NAME.fitted.xlsx` beside the input.
+    /// Where to write; `None` for [`default_output`] beside the input.
     pub output: Option<PathBuf>,
     /// The time to record, seconds since 1970 (UTC); `None` for now.
     pub created_unix: Option<i64>,
@@ -41,6 +41,8 @@ pub enum RunError {
     OutputIsInput { path: PathBuf },
     /// The output must be an xlsx file.
     OutputFormat { path: PathBuf },
+    /// The output's folder does not exist or is not a folder.
+    OutputFolder { dir: PathBuf, exists: bool },
     /// Writing failed.
     Write(WriteError),
 }
@@ -56,6 +58,13 @@ impl fmt::Display for RunError {
                 path.display()
             ),
             RunError::OutputFormat { path } => write!(f, "the output {} must end in .xlsx (plumb writes xlsx workbooks)", path.display()),
+            RunError::OutputFolder { dir, exists: false } => {
+                write!(f, "the folder {} does not exist; create it or choose another -o", dir.display())
+            }
+            RunError::OutputFolder { dir, exists: true } => write!(f, "{} is not a folder; choose another -o", dir.display()),
+            RunError::Write(WriteError::Folder { dir, source }) => {
+                write!(f, "the folder {} cannot be written to ({source}); choose another -o", dir.display())
+            }
             RunError::Write(e) => {
                 write!(f, "{e}")?;
                 if let Some(s) = std::error::Error::source(e) {
@@ -117,10 +126,19 @@ pub fn builtin_registry() -> Registry {
     Registry::builtin()
 }
 
-/// `NAME.fitted.xlsx` beside the input.
+/// The output beside the input when no `-o` is given: `NAME.fitted.xlsx`
+/// for `NAME.xlsx`, and the whole file name with `-fitted.xlsx` for any
+/// other input (`book.xls-fitted.xlsx`, `book.ods-fitted.xlsx`,
+/// `book.xlsm-fitted.xlsx`). Names cannot collide: the first kind ends in
+/// `.fitted.xlsx`, the second never does, and each is made from a name no
+/// other input in the folder has — so `book.xls`, `book.ods` and
+/// `book.xlsx` side by side keep three outputs.
 pub fn default_output(input: &Path) -> PathBuf {
-    let stem = input.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "workbook".into());
-    input.with_file_name(format!("{stem}.fitted.xlsx"))
+    let name = input.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "workbook".into());
+    match name.strip_suffix(".xlsx").filter(|stem| !stem.is_empty()) {
+        Some(stem) => input.with_file_name(format!("{stem}.fitted.xlsx")),
+        None => input.with_file_name(format!("{name}-fitted.xlsx")),
+    }
 }
 
 /// Whether `out` names the same file as `input`: the same path once links
@@ -151,6 +169,19 @@ fn same_file(input: &Path, out: &Path) -> bool {
         && a.file_name().map(|s| s.to_string_lossy().to_lowercase()) == b.file_name().map(|s| s.to_string_lossy().to_lowercase())
 }
 
+/// The lock file a spreadsheet application keeps beside a workbook it has
+/// open, when there is one beside `out` (and `out` exists): `.~lock.NAME#`
+/// (LibreOffice) or `~$NAME` (Microsoft Office; its programs also shorten a
+/// long name by its first two characters, `~$ME…`, from memory).
+pub fn open_lock(out: &Path) -> Option<PathBuf> {
+    let name = out.file_name()?.to_string_lossy().into_owned();
+    if !out.is_file() {
+        return None;
+    }
+    let shortened: String = name.chars().skip(2).collect();
+    [format!(".~lock.{name}#"), format!("~${name}"), format!("~${shortened}")].into_iter().map(|n| out.with_file_name(n)).find(|p| p.is_file())
+}
+
 /// Unix seconds as `YYYY-MM-DD hh:mm:ss`.
 pub fn iso_time(unix: i64) -> String {
     let (y, m, d, hh, mm, ss) = crate::cells::civil_from_unix(unix);
@@ -164,8 +195,39 @@ fn file_label(path: &Path) -> String {
 /// Reads the input and evaluates every request; writes nothing.
 pub fn evaluate(input: &Path, registry: &Registry) -> Result<(Workbook, Summary), RunError> {
     let book = read::read_workbook(input).map_err(RunError::Read)?;
-    let summary = evaluate_book(&book, &file_label(input), registry);
+    let mut summary = evaluate_book(&book, &file_label(input), registry);
+    note_uncomputed(&mut summary, &book, &file_label(input));
     Ok((book, summary))
+}
+
+/// One warning per sheet whose formulas have no stored results (a file
+/// saved by a program that writes formulas without computing them), at
+/// the first such cell: plumb reads those cells as blank, which explains a
+/// request's blank or missing values.
+pub fn uncomputed_formulas(book: &Workbook) -> Vec<Problem> {
+    let mut out = Vec::new();
+    for g in &book.sheets {
+        let mut cells = g.uncomputed();
+        let Some((r, c)) = cells.next() else { continue };
+        let others = cells.count();
+        let what = match others {
+            0 => "this formula has no stored result, so plumb reads it as blank".to_string(),
+            n => format!("this cell and {n} other formula cell{} of {} have no stored results, so plumb reads them as blank", if n == 1 { "" } else { "s" }, g.name),
+        };
+        out.push(
+            Problem::warning(format!("{what}: the file was saved by a program that does not compute formulas"))
+                .at(CellAddress::new(g.name.clone(), r, c))
+                .help("open the file in a spreadsheet application and save it again, which stores the results; then run plumb again"),
+        );
+    }
+    out
+}
+
+/// Puts the [`uncomputed_formulas`] warnings first among the problems:
+/// they explain the requests' blank cells.
+fn note_uncomputed(summary: &mut Summary, book: &Workbook, file: &str) {
+    let found: Vec<Problem> = uncomputed_formulas(book).into_iter().map(|p| p.in_file(file)).collect();
+    summary.problems.splice(0..0, found);
 }
 
 /// Evaluates every request of a workbook already read: first every fit, in
@@ -411,11 +473,16 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     if !out.extension().is_some_and(|e| e.eq_ignore_ascii_case("xlsx")) {
         return Err(RunError::OutputFormat { path: out });
     }
+    let dir = out.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    if !dir.is_dir() {
+        return Err(RunError::OutputFolder { dir: dir.to_path_buf(), exists: dir.exists() });
+    }
     let bytes = std::fs::read(&config.input).map_err(|source| RunError::Input { path: config.input.clone(), source })?;
     let sha = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
     drop(bytes);
     let (book, format) = read::read_workbook_with_format(&config.input).map_err(RunError::Read)?;
     let mut summary = evaluate_book(&book, &file_label(&config.input), registry);
+    note_uncomputed(&mut summary, &book, &file_label(&config.input));
     let requests: HashSet<CellAddress> = summary.reports.iter().map(|r| r.cell.clone()).collect();
     for p in unwritable_cells(&book, &requests) {
         summary.problems.push(p.in_file(file_label(&config.input)));
@@ -429,13 +496,64 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         input_sha256: sha,
         time: iso_time(created),
     };
-    let mut laid = layout::lay_out(&book, &summary.reports, &info);
     // Told from the content, not the name: an ods saved as .xlsx still has
     // OpenFormula syntax, which would be a broken formula in xlsx.
-    laid.keep_formulas = format != read::Format::Ods;
-    write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    let keep_formulas = format != read::Format::Ods;
+    let lay_out = |reports: &[Report]| layout::Book { keep_formulas, ..layout::lay_out(&book, reports, &info) };
+    let mut laid = lay_out(&summary.reports);
+    // A part the output cannot hold (a chart, a calculator, a list) costs
+    // that part alone: its request gets a warning, shown at its cell, and
+    // the book is laid out again with the part left out.
+    let refused = write::check_parts(&laid);
+    if !refused.is_empty() {
+        for r in &refused {
+            note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), true);
+        }
+        laid = lay_out(&summary.reports);
+        let again = write::check_parts(&laid);
+        laid.leave_out(&again);
+    }
+    let lock = open_lock(&out);
+    let skipped = write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    // Replaced while open: the application still shows the old results,
+    // and saving there would put them back over the new ones.
+    if let Some(lock) = lock {
+        let lock_name = lock.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        summary.problems.push(
+            Problem::warning(format!(
+                "the output seems to be open in a spreadsheet application (the lock file {lock_name} is beside it); it was replaced, but the application still shows the old results, and saving it there would overwrite the new ones"
+            ))
+            .help("close it without saving and open it again; if the new results do not show, close it and run again")
+            .in_file(out.display().to_string()),
+        );
+    }
+    for r in &skipped {
+        note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), false);
+    }
     summary.output = Some(out);
     Ok(summary)
+}
+
+/// Records a part of the output that was left out as a warning at the
+/// request it belongs to (or of the run), and, when `mark` is set, in that
+/// request's report so its cell and the Fits sheet show it.
+fn note_refused(summary: &mut Summary, book: &Workbook, laid: &layout::Book, r: &layout::Refused, file: &str, mark: bool) {
+    let (owner, what) = laid.owner_of(book, r);
+    let mut p = Problem::warning(format!("{what} could not be written ({}), so it is left out; the rest of the output is written", r.why))
+        .help("this is a limit of the output format; please report it with the workbook if the request looks ordinary")
+        .in_file(file);
+    if let Some(cell) = owner {
+        p = p.at(cell.clone());
+        if mark {
+            if let Some(rep) = summary.reports.iter_mut().find(|rep| rep.cell == cell) {
+                rep.messages.push(p.one_line());
+                if rep.status == Status::Ok {
+                    rep.status = Status::Warning;
+                }
+            }
+        }
+    }
+    summary.problems.push(p);
 }
 
 #[cfg(test)]
@@ -540,6 +658,28 @@ mod tests {
 
     #[test]
     fn default_output_sits_beside_the_input() {
-        assert_eq!(default_output(Path::new("dir/book.xlsx")), PathBuf::from("dir/book.fitted.xlsx"));
+        let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
+        assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");
+        assert_eq!(out("dir/book.xls"), "dir/book.xls-fitted.xlsx");
+        assert_eq!(out("book.ods"), "book.ods-fitted.xlsx");
+        assert_eq!(out("book.xlsm"), "book.xlsm-fitted.xlsx");
+        assert_eq!(out("book.xlsb"), "book.xlsb-fitted.xlsx");
+        assert_eq!(out("book.xls.xlsx"), "book.xls.fitted.xlsx");
+        assert_eq!(out("book"), "book-fitted.xlsx");
+        // Two names differing in case are two files where case matters.
+        assert_eq!(out("book.XLSX"), "book.XLSX-fitted.xlsx");
+        assert_eq!(out(".xlsx"), ".xlsx-fitted.xlsx");
+    }
+
+    #[test]
+    fn default_outputs_of_different_inputs_differ() {
+        // Every pair of these names, as they might stand in one folder.
+        let names = ["book.xlsx", "book.xls", "book.ods", "book.xlsm", "book.xlsb", "book", "book.xls.xlsx", "book.xls-fitted.xlsx", "book.fitted.xlsx", "book.XLSX", "book.fitted"];
+        let outs: Vec<PathBuf> = names.iter().map(|n| default_output(Path::new(n))).collect();
+        for i in 0..names.len() {
+            for j in i + 1..names.len() {
+                assert_ne!(outs[i], outs[j], "{} and {}", names[i], names[j]);
+            }
+        }
     }
 }

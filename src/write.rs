@@ -6,11 +6,17 @@
 //! their [`Overlay`]: replaced request cells and added result columns. The
 //! file is written to a temporary name in the output's folder and renamed into
 //! place only when complete, so no half-written output is ever left behind.
+//!
+//! A part of one request's results that the format cannot hold — a chart
+//! reading a sheet that is not written, a formula too long or with too long
+//! a text, a list the format refuses, a link to no sheet — is checked before
+//! writing ([`check_parts`]) and, should one still fail, left out while
+//! writing: it never costs the rest of the workbook.
 
-use crate::cells::{DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
-use crate::layout::{Book, Cached, ChartSpec, Content, OutCell, Overlay, Sheet, Style};
+use crate::cells::{quote_sheet_name, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
+use crate::layout::{output_sheet_names, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Part, Refused, Sheet, SheetAt, Style};
 use rust_xlsxwriter::{Chart, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 use std::fmt;
 use std::path::{Path, PathBuf};
 
@@ -21,6 +27,9 @@ pub enum WriteError {
     Xlsx { path: PathBuf, source: XlsxError },
     /// A file-system step failed.
     Io { path: PathBuf, action: &'static str, source: std::io::Error },
+    /// The output's folder cannot be written to (the writer's temporary
+    /// files go there first).
+    Folder { dir: PathBuf, source: std::io::Error },
 }
 
 impl fmt::Display for WriteError {
@@ -28,6 +37,7 @@ impl fmt::Display for WriteError {
         match self {
             WriteError::Xlsx { path, .. } => write!(f, "could not write the output workbook {}", path.display()),
             WriteError::Io { path, action, .. } => write!(f, "could not {action} {}", path.display()),
+            WriteError::Folder { dir, .. } => write!(f, "could not write in the folder {}", dir.display()),
         }
     }
 }
@@ -36,7 +46,7 @@ impl std::error::Error for WriteError {
     fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
         match self {
             WriteError::Xlsx { source, .. } => Some(source),
-            WriteError::Io { source, .. } => Some(source),
+            WriteError::Io { source, .. } | WriteError::Folder { source, .. } => Some(source),
         }
     }
 }
@@ -154,14 +164,18 @@ fn xerr(path: &Path) -> impl Fn(XlsxError) -> WriteError + '_ {
     move |source| WriteError::Xlsx { path: path.to_path_buf(), source }
 }
 
-/// Writes one model cell.
-fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell, path: &Path) -> Result<(), WriteError> {
+/// Writes one model cell. A link or formula the format cannot hold (see
+/// [`check_parts`]) is not written: the cell keeps its text or the
+/// formula's last value, and the part is recorded as refused.
+#[allow(clippy::too_many_arguments)]
+fn put(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: SheetAt, row: u32, col: u16, cell: &OutCell, path: &Path) -> Result<(), WriteError> {
     let e = xerr(path);
     let num = match cell.content {
         Content::Number(x) => Some(x),
         _ => None,
     };
-    if let Some(target) = &cell.link {
+    let link = cell.link.as_ref().filter(|t| parts.accept(at, Part::Link(row, u32::from(col)), link_fits(t, &parts.names)));
+    if let Some(target) = link {
         let text = match &cell.content {
             Content::Text(t) => clip_text(t, MAX_CELL_TEXT).to_string(),
             Content::Number(x) => format!("{x}"),
@@ -169,6 +183,12 @@ fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell,
         };
         let f = fm.get(cell.style, num).clone();
         ws.write_url_with_format(row, col, Url::new(format!("internal:{target}")).set_text(text), &f).map_err(&e)?;
+    } else if let Content::Formula(text, cached) = &cell.content {
+        if parts.accept(at, Part::Cell(row, u32::from(col)), formula_fits(text)) {
+            write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
+        } else {
+            write_content(ws, fm, row, col, &cached_content(cached), cell.style, path)?;
+        }
     } else {
         write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
     }
@@ -176,6 +196,17 @@ fn put(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, cell: &OutCell,
         ws.insert_note(row, col, &Note::new(clip_text(n, MAX_NOTE_TEXT)).add_author_prefix(false)).map_err(&e)?;
     }
     Ok(())
+}
+
+/// A formula's last value as plain content.
+fn cached_content(c: &Cached) -> Content {
+    match c {
+        Cached::Empty => Content::Blank,
+        Cached::Number(x) => Content::Number(*x),
+        Cached::Text(t) => Content::Text(t.clone()),
+        Cached::Bool(b) => Content::Bool(*b),
+        Cached::Error(e) => Content::Error(*e),
+    }
 }
 
 fn error_formula(err: ErrorValue) -> Formula {
@@ -266,20 +297,8 @@ fn source_content(grid: &Grid, row: u32, col: u32, keep_formulas: bool) -> Optio
     })
 }
 
-/// A sheet name the output format accepts: at most 31 characters, none of
-/// `[]:*?/\`, not blank.
-pub fn valid_sheet_name(name: &str) -> String {
-    let cleaned: String = name.chars().map(|c| if "[]:*?/\\".contains(c) { '_' } else { c }).collect();
-    let cleaned = cleaned.trim_matches('\'').to_string();
-    let cut: String = cleaned.chars().take(31).collect();
-    if cut.trim().is_empty() {
-        "Sheet".into()
-    } else {
-        cut
-    }
-}
-
-fn write_source(ws: &mut Worksheet, fm: &mut Formats, grid: &Grid, ov: &Overlay, keep_formulas: bool, path: &Path) -> Result<(), WriteError> {
+#[allow(clippy::too_many_arguments)]
+fn write_source(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: SheetAt, grid: &Grid, ov: &Overlay, keep_formulas: bool, path: &Path) -> Result<(), WriteError> {
     let e = xerr(path);
     for (c, w) in &ov.widths {
         ws.set_column_width(*c as u16, *w).map_err(&e)?;
@@ -316,12 +335,12 @@ fn write_source(ws: &mut Worksheet, fm: &mut Formats, grid: &Grid, ov: &Overlay,
             }
         }
         for ((_, c), cell) in ov.cells.range((r, 0)..=(r, u32::MAX)) {
-            put(ws, fm, r, *c as u16, cell, path)?;
+            put(ws, fm, parts, at, r, *c as u16, cell, path)?;
         }
         for (bi, b) in ov.blocks.iter().enumerate() {
             if let Some((hr, h)) = &b.header {
                 if *hr == r {
-                    put(ws, fm, r, b.col as u16, &OutCell::text(h, Style::Header), path)?;
+                    put(ws, fm, parts, at, r, b.col as u16, &OutCell::text(h, Style::Header), path)?;
                 }
             }
             let i = &mut next[bi];
@@ -340,13 +359,13 @@ fn write_source(ws: &mut Worksheet, fm: &mut Formats, grid: &Grid, ov: &Overlay,
     Ok(())
 }
 
-fn write_result(ws: &mut Worksheet, fm: &mut Formats, sheet: &Sheet, path: &Path) -> Result<(), WriteError> {
+fn write_result(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: SheetAt, sheet: &Sheet, path: &Path) -> Result<(), WriteError> {
     let e = xerr(path);
     for (c, w) in &sheet.widths {
         ws.set_column_width(*c as u16, *w).map_err(&e)?;
     }
     for ((r, c), cell) in &sheet.cells {
-        put(ws, fm, *r, *c as u16, cell, path)?;
+        put(ws, fm, parts, at, *r, *c as u16, cell, path)?;
     }
     if let Some((r, c)) = sheet.freeze {
         ws.set_freeze_panes(r, c as u16).map_err(&e)?;
@@ -354,27 +373,59 @@ fn write_result(ws: &mut Worksheet, fm: &mut Formats, sheet: &Sheet, path: &Path
     if let Some(f) = sheet.filter {
         ws.autofilter(f.first_row, f.first_col as u16, f.last_row, f.last_col as u16).map_err(&e)?;
     }
-    for ((r, c), levels) in &sheet.choices {
-        // A list longer than the format's 255 characters gets no drop-down; the cell stays typeable.
-        if let Ok(dv) = DataValidation::new().allow_list_strings(levels) {
-            ws.add_data_validation(*r, *c as u16, *r, *c as u16, &dv).map_err(&e)?;
+    for (&(r, c), choices) in &sheet.choices {
+        let part = Part::Choice(r, c);
+        if let Some(dv) = parts.take(at, part, list_for(choices)) {
+            let added = ws.add_data_validation(r, c as u16, r, c as u16, &dv).map(|_| ()).map_err(|x| x.to_string());
+            parts.accept(at, part, added);
         }
     }
-    for spec in &sheet.charts {
-        let chart = chart(spec);
-        ws.insert_chart(spec.anchor.0, spec.anchor.1 as u16, &chart).map_err(&e)?;
+    for (k, spec) in sheet.charts.iter().enumerate() {
+        let part = Part::Chart(k);
+        if let Some(chart) = parts.take(at, part, chart_for(spec, &parts.names)) {
+            let inserted = ws.insert_chart(spec.anchor.0, spec.anchor.1 as u16, &chart).map(|_| ()).map_err(|x| x.to_string());
+            parts.accept(at, part, inserted);
+        }
     }
     Ok(())
 }
 
+/// Text for a chart's title, axis or series name that the writer keeps as
+/// text. rust_xlsxwriter reads such a name as a cell reference when the
+/// text after its first `!` looks like a range (a response typed as
+/// `Data!F2:F105` gives the axis name `Fitted Data!F2:F105`), and as a
+/// formula when it starts with `=(` or starts with `=` and holds `[`; a
+/// trailing or leading space, which a chart does not show, keeps it text.
+fn chart_text(t: &str) -> String {
+    let looks_like_range = t.split_once('!').is_some_and(|(_, rest)| {
+        let r = rest.replace('$', "");
+        r.starts_with(|c: char| c.is_ascii_uppercase()) && r.ends_with(|c: char| c.is_ascii_digit()) && r.chars().all(|c| c.is_ascii_uppercase() || c.is_ascii_digit() || c == ':')
+    });
+    if t.starts_with('=') {
+        format!(" {t}")
+    } else if looks_like_range {
+        format!("{t} ")
+    } else {
+        t.to_string()
+    }
+}
+
 /// A scatter chart of the workbook from its abstract spec: markers without
 /// lines, or lines without markers, each series reading one-column ranges.
-fn chart(spec: &ChartSpec) -> Chart {
+/// Refused when a series reads a sheet that is not written or cells past
+/// the sheet's edge, or the writer's own check fails.
+fn chart_for(spec: &ChartSpec, names: &HashSet<String>) -> Result<Chart, String> {
     let mut chart = Chart::new_scatter();
     for s in &spec.series {
+        if !names.contains(&s.sheet) {
+            return Err(format!("it reads the sheet {}, which the output does not have", quote_sheet_name(&s.sheet)));
+        }
+        if s.first_row > s.last_row || s.last_row >= crate::cells::MAX_ROWS || s.x_col.max(s.y_col) >= crate::cells::MAX_COLS {
+            return Err(format!("the series {} reads rows {}–{}, which are not on a sheet", s.name, s.first_row + 1, s.last_row + 1));
+        }
         let series = chart.add_series();
         series
-            .set_name(s.name.as_str())
+            .set_name(&chart_text(&s.name))
             .set_categories((s.sheet.as_str(), s.first_row, s.x_col as u16, s.last_row, s.x_col as u16))
             .set_values((s.sheet.as_str(), s.first_row, s.y_col as u16, s.last_row, s.y_col as u16));
         if s.line {
@@ -383,11 +434,170 @@ fn chart(spec: &ChartSpec) -> Chart {
             series.set_marker(ChartMarker::new().set_type(ChartMarkerType::Circle).set_size(5));
         }
     }
-    chart.title().set_name(spec.title.as_str());
-    chart.x_axis().set_name(spec.x_label.as_str());
-    chart.y_axis().set_name(spec.y_label.as_str());
+    chart.title().set_name(&chart_text(&spec.title));
+    chart.x_axis().set_name(&chart_text(&spec.x_label));
+    chart.y_axis().set_name(&chart_text(&spec.y_label));
     chart.set_width(500).set_height(340);
-    chart
+    chart.validate().map_err(|e| e.to_string())?;
+    Ok(chart)
+}
+
+/// The drop-down list of a cell: its choices written into the list, or
+/// read from cells of the same sheet.
+fn list_for(choices: &Choices) -> Result<DataValidation, String> {
+    match choices {
+        Choices::List(levels) => DataValidation::new().allow_list_strings(levels).map_err(|e| e.to_string()),
+        Choices::Cells(r) => {
+            let at = |row: u32, col: u32| format!("${}${}", crate::cells::column_letters(col), row + 1);
+            if r.first_row != r.last_row && r.first_col != r.last_col {
+                return Err("a list reads one row or one column".into());
+            }
+            let range = format!("{}:{}", at(r.first_row, r.first_col), at(r.last_row, r.last_col));
+            Ok(DataValidation::new().allow_list_formula(Formula::new(range)))
+        }
+    }
+}
+
+/// The longest formula the xlsx format holds, in characters (Excel's
+/// specifications and limits: 8,192; from memory).
+const MAX_FORMULA: usize = 8_192;
+
+/// The longest text constant within a formula (Excel's specifications and
+/// limits: 255 characters; from memory).
+const MAX_FORMULA_TEXT: usize = 255;
+
+/// Whether the format holds a formula (given without `=`): not longer than
+/// [`MAX_FORMULA`], no text constant longer than [`MAX_FORMULA_TEXT`].
+fn formula_fits(f: &str) -> Result<(), String> {
+    let n = f.encode_utf16().count();
+    if n > MAX_FORMULA {
+        return Err(format!("a formula would be {n} characters long, more than the {MAX_FORMULA} a workbook formula holds"));
+    }
+    let mut chars = f.chars().peekable();
+    while let Some(c) = chars.next() {
+        if c != '"' {
+            continue;
+        }
+        let mut len = 0usize;
+        loop {
+            match chars.next() {
+                Some('"') if chars.peek() == Some(&'"') => {
+                    chars.next();
+                    len += 1;
+                }
+                Some('"') | None => break,
+                Some(ch) => len += ch.len_utf16(),
+            }
+        }
+        if len > MAX_FORMULA_TEXT {
+            return Err(format!("a formula would hold a text of {len} characters, more than the {MAX_FORMULA_TEXT} a text in a workbook formula may have"));
+        }
+    }
+    Ok(())
+}
+
+/// Whether an internal link target (`'Sheet name'!A1`) names a sheet the
+/// output has.
+fn link_fits(target: &str, names: &HashSet<String>) -> Result<(), String> {
+    let sheet = match target.strip_prefix('\'') {
+        Some(rest) => {
+            let mut name = String::new();
+            let mut chars = rest.chars().peekable();
+            loop {
+                match chars.next() {
+                    Some('\'') if chars.peek() == Some(&'\'') => {
+                        chars.next();
+                        name.push('\'');
+                    }
+                    Some('\'') => break,
+                    Some(c) => name.push(c),
+                    None => return Err(format!("the link {target} has an unclosed quote")),
+                }
+            }
+            (chars.next() == Some('!')).then_some(name)
+        }
+        None => target.split_once('!').map(|(n, _)| n.to_string()),
+    };
+    match sheet {
+        Some(n) if names.contains(&n) => Ok(()),
+        Some(n) => Err(format!("it links to the sheet {}, which the output does not have", quote_sheet_name(&n))),
+        None => Err(format!("the link {target} names no sheet")),
+    }
+}
+
+/// The parts the writer refused, and the names of the sheets it writes.
+struct Parts {
+    names: HashSet<String>,
+    refused: Vec<Refused>,
+}
+
+impl Parts {
+    fn new(source_names: &[String], book: &Book) -> Self {
+        let names = source_names.iter().chain(book.sheets.iter().map(|s| &s.name)).cloned().collect();
+        Parts { names, refused: Vec::new() }
+    }
+
+    /// Whether the part is accepted; records it as refused when not.
+    fn accept(&mut self, sheet: SheetAt, part: Part, r: Result<(), String>) -> bool {
+        match r {
+            Ok(()) => true,
+            Err(why) => {
+                self.refused.push(Refused { sheet, part, why });
+                false
+            }
+        }
+    }
+
+    /// The built part, or `None` with the part recorded as refused.
+    fn take<T>(&mut self, sheet: SheetAt, part: Part, r: Result<T, String>) -> Option<T> {
+        match r {
+            Ok(x) => Some(x),
+            Err(why) => {
+                self.refused.push(Refused { sheet, part, why });
+                None
+            }
+        }
+    }
+}
+
+/// Every part of a laid-out book the output format would refuse, checked
+/// without writing: charts (their ranges must read sheets that are
+/// written), drop-down lists, formulas of the result sheets (length, text
+/// constants) and links (to sheets that are written). The writer makes the
+/// same checks as it writes and leaves out what fails, so a refused part
+/// never costs the rest of the output; checking first lets the pipeline
+/// say so at the request's cell (`Book::leave_out`).
+pub fn check_parts(book: &Book) -> Vec<Refused> {
+    let mut parts = Parts::new(&book.source_names, book);
+    for (i, ov) in book.overlays.iter().enumerate() {
+        for (&(r, c), cell) in &ov.cells {
+            if let Some(t) = &cell.link {
+                let ok = link_fits(t, &parts.names);
+                parts.accept(SheetAt::Source(i), Part::Link(r, c), ok);
+            }
+        }
+    }
+    for (i, sheet) in book.sheets.iter().enumerate() {
+        let at = SheetAt::Result(i);
+        for (&(r, c), cell) in &sheet.cells {
+            if let Some(t) = &cell.link {
+                let ok = link_fits(t, &parts.names);
+                parts.accept(at, Part::Link(r, c), ok);
+            }
+            if let Content::Formula(f, _) = &cell.content {
+                parts.accept(at, Part::Cell(r, c), formula_fits(f));
+            }
+        }
+        for (&(r, c), choices) in &sheet.choices {
+            let ok = list_for(choices).map(|_| ());
+            parts.accept(at, Part::Choice(r, c), ok);
+        }
+        for (k, spec) in sheet.charts.iter().enumerate() {
+            let ok = chart_for(spec, &parts.names).map(|_| ());
+            parts.accept(at, Part::Chart(k), ok);
+        }
+    }
+    parts.refused
 }
 
 /// Unix seconds to the workbook's date-time.
@@ -399,17 +609,25 @@ fn excel_time(unix: i64) -> Result<ExcelDateTime, XlsxError> {
 
 /// Writes the output atomically: a temporary file beside `out`, renamed onto
 /// it when complete. On any error the temporary file is removed and `out` is
-/// left as it was.
-pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOptions) -> Result<(), WriteError> {
+/// left as it was. A part the format cannot hold (see [`check_parts`]) is
+/// left out and returned; the rest is written.
+pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOptions) -> Result<Vec<Refused>, WriteError> {
     let dir = match out.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => PathBuf::from("."),
     };
     let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
     let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
-    let result = build(source, book, &tmp, &dir, opts);
-    let result = result.and_then(|()| {
-        std::fs::rename(&tmp, out).map_err(|source| WriteError::Io { path: out.to_path_buf(), action: "move the finished output to", source })
+    // Errors name the output, not the temporary file the user never sees;
+    // a folder the writer cannot use is said plainly.
+    let result = build(source, book, &tmp, &dir, opts).map_err(|e| match e {
+        WriteError::Xlsx { source: XlsxError::TempFileError(_, io), .. } => WriteError::Folder { dir: dir.clone(), source: io },
+        WriteError::Xlsx { source, .. } => WriteError::Xlsx { path: out.to_path_buf(), source },
+        other => other,
+    });
+    let result = result.and_then(|refused| {
+        std::fs::rename(&tmp, out).map_err(|source| WriteError::Io { path: out.to_path_buf(), action: "move the finished output to", source })?;
+        Ok(refused)
     });
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
@@ -417,7 +635,7 @@ pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOption
     result
 }
 
-fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOptions) -> Result<(), WriteError> {
+fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOptions) -> Result<Vec<Refused>, WriteError> {
     let e = xerr(tmp);
     let mut wb = XlsxBook::new();
     wb.set_tempdir(dir).map_err(&e)?;
@@ -426,18 +644,12 @@ fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOpt
     wb.set_properties(&DocProperties::new().set_creation_datetime(&created));
     let mut fm = Formats::new();
     let first_visible = source.sheets.iter().position(|g| g.visibility == Visibility::Visible);
-    let mut used_names: Vec<String> = Vec::new();
+    // The names layout chose (and linked to); a book made without them gets the same rule.
+    let source_names = if book.source_names.len() == source.sheets.len() { book.source_names.clone() } else { output_sheet_names(source) };
+    let mut parts = Parts::new(&source_names, book);
     for (i, grid) in source.sheets.iter().enumerate() {
-        let mut name = valid_sheet_name(&grid.name);
-        let mut k = 2;
-        while used_names.iter().any(|n| n.to_lowercase() == name.to_lowercase()) {
-            let suffix = format!(" {k}");
-            name = format!("{}{suffix}", name.chars().take(31 - suffix.len()).collect::<String>());
-            k += 1;
-        }
-        used_names.push(name.clone());
         let ws = wb.add_worksheet_with_constant_memory().map_err(&e)?;
-        ws.set_name(&name).map_err(&e)?;
+        ws.set_name(&source_names[i]).map_err(&e)?;
         match grid.visibility {
             Visibility::Visible => {}
             Visibility::Hidden => {
@@ -454,7 +666,7 @@ fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOpt
         ws.set_formula_result_default("");
         let empty = Overlay::default();
         let ov = book.overlays.get(i).unwrap_or(&empty);
-        write_source(ws, &mut fm, grid, ov, book.keep_formulas, tmp)?;
+        write_source(ws, &mut fm, &mut parts, SheetAt::Source(i), grid, ov, book.keep_formulas, tmp)?;
     }
     for (i, sheet) in book.sheets.iter().enumerate() {
         let ws = wb.add_worksheet();
@@ -462,15 +674,25 @@ fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOpt
         if first_visible.is_none() && i == 0 {
             ws.set_active(true);
         }
-        write_result(ws, &mut fm, sheet, tmp)?;
+        write_result(ws, &mut fm, &mut parts, SheetAt::Result(i), sheet, tmp)?;
     }
     wb.save(tmp).map_err(&e)?;
-    Ok(())
+    Ok(parts.refused)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_folder_the_writer_cannot_use_is_named_not_its_temporary_file() {
+        let dir = std::env::temp_dir().join(format!("plumb-write-missing-{}", std::process::id())).join("nope");
+        let out = dir.join("out.xlsx");
+        let opts = WriteOptions { created_unix: 0, zip_level: 1 };
+        let e = write_book(&Workbook { sheets: Vec::new() }, &Book::default(), &out, &opts).expect_err("the folder is missing");
+        assert!(matches!(&e, WriteError::Folder { dir: d, .. } if *d == dir), "{e:?}");
+        assert_eq!(e.to_string(), format!("could not write in the folder {}", dir.display()));
+    }
 
     #[test]
     fn six_significant_digits() {
@@ -493,10 +715,4 @@ mod tests {
         assert!(!over_long_text(&"é".repeat(MAX_CELL_TEXT)));
     }
 
-    #[test]
-    fn sheet_names_are_made_valid() {
-        assert_eq!(valid_sheet_name("a/b:c"), "a_b_c");
-        assert_eq!(valid_sheet_name(&"x".repeat(40)).chars().count(), 31);
-        assert_eq!(valid_sheet_name("Données"), "Données");
-    }
 }

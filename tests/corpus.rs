@@ -309,14 +309,15 @@ fn check(c: &Case) -> Vec<String> {
     if sha(&std::fs::read(&input).unwrap()) != before {
         bad.push("the input changed".into());
     }
-    let output = d.join(format!("{}.fitted.xlsx", c.name));
+    let output = plumb::pipeline::default_output(&input);
+    let output_name = output.file_name().unwrap().to_string_lossy().into_owned();
     let files = files_in(&d);
     if o.status.code() == Some(2) {
         if files != [file.clone()] {
             bad.push(format!("nothing may be written on exit 2, found {files:?}"));
         }
     } else {
-        let mut want = vec![file.clone(), format!("{}.fitted.xlsx", c.name)];
+        let mut want = vec![file.clone(), output_name.clone()];
         want.sort();
         if files != want {
             bad.push(format!("only the output may be written, found {files:?}"));

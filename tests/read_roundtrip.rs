@@ -497,3 +497,29 @@ fn a_reader_panic_becomes_damage() {
         other => panic!("expected Damaged, got {other:?}"),
     }
 }
+
+#[test]
+fn a_formula_without_a_stored_result_reads_apart_from_one_whose_result_is_empty_text() {
+    // xlsx: B1 has no <v> (as programs that write formulas without computing
+    // them save it); C1 and E1 hold an empty text result, D1 a text result.
+    let xml = r#"<sheetData><row r="1"><c r="A1"><v>1</v></c><c r="B1"><f>A1*2</f></c><c r="C1" t="str"><f>""</f><v></v></c><c r="D1" t="str"><f>"a"</f><v>a</v></c><c r="E1" t="str"><f>""</f><v/></c></row></sheetData>"#;
+    let book = read_bytes_ok(&minimal_xlsx(xml, false), "uncomputed.xlsx");
+    let g = &book.sheets[0];
+    assert_eq!((g.value(0, 1), g.formula(0, 1)), (Value::Empty, Some("A1*2")));
+    assert_eq!(g.value(0, 2), Value::Text(""));
+    assert_eq!(g.value(0, 3), Value::Text("a"));
+    assert_eq!(g.value(0, 4), Value::Text(""));
+    assert_eq!((0..5).filter(|&c| g.is_uncomputed(0, c)).collect::<Vec<_>>(), vec![1]);
+    assert_eq!(g.uncomputed().collect::<Vec<_>>(), vec![(0, 1)]);
+    // ods: a formula cell without office:value against ones with an empty string result.
+    let t = r#"<table:table table:name="Data"><table:table-row><table:table-cell office:value-type="float" office:value="1"><text:p>1</text:p></table:table-cell><table:table-cell table:formula="of:=[.A1]*2"/><table:table-cell table:formula="of:=&quot;&quot;" office:value-type="string" office:string-value=""/><table:table-cell table:formula="of:=&quot;&quot;" office:value-type="string"><text:p/></table:table-cell></table:table-row></table:table>"#;
+    let book = read_bytes_ok(&minimal_ods("", t), "uncomputed.ods");
+    let g = &book.sheets[0];
+    assert_eq!(g.uncomputed().collect::<Vec<_>>(), vec![(0, 1)]);
+    assert_eq!((g.value(0, 2), g.value(0, 3)), (Value::Text(""), Value::Text("")));
+    // xls: a formula record always carries its result.
+    let xls = XlsSheet { name: "Data", state: 0, cells: vec![(0, 0, XlsCell::Formula { cached: 3.0, rgce: vec![0x1E, 1, 0, 0x1E, 2, 0, 0x03] })], merged: vec![] };
+    let book = read_bytes_ok(&minimal_xls(&[xls], false), "computed.xls");
+    assert_eq!(book.sheets[0].uncomputed().count(), 0);
+    assert!(book.sheets[0].formula(0, 0).is_some());
+}

@@ -101,6 +101,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
                 x_label: x_name.clone(),
                 y_label: r.response.clone(),
                 series: vec![series("Observed", c0, c0 + 1, last, false), series("Fitted", c0, c0 + 2, last, true)],
+                owner: Some(r.cell.clone()),
             }
         } else {
             ChartSpec {
@@ -109,6 +110,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
                 x_label: format!("Fitted {}", r.response),
                 y_label: format!("Observed {}", r.response),
                 series: vec![series("Observed", c0 + 2, c0 + 1, last, false), series("Observed = fitted", c0 + 2, c0 + 2, last, true)],
+                owner: Some(r.cell.clone()),
             }
         };
         s.charts.push(first);
@@ -118,6 +120,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
             x_label: format!("Fitted {}", r.response),
             y_label: "Residual (observed − fitted)".into(),
             series: vec![series("Residual", c0 + 2, c0 + 3, last, false)],
+            owner: Some(r.cell.clone()),
         });
         if !sr.is_empty() {
             s.charts.push(ChartSpec {
@@ -126,6 +129,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
                 x_label: "Normal quantile (Blom positions)".into(),
                 y_label: "Standardized residual".into(),
                 series: vec![series("Standardized residual", c0 + 4, c0 + 5, last_q, false), series("Normal line", c0 + 4, c0 + 4, last_q, true)],
+                owner: Some(r.cell.clone()),
             });
         }
         block += 1;

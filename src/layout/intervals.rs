@@ -4,7 +4,8 @@
 //! stored covariance, cached with the values of [`crate::predict`]).
 
 use super::coefficients::estimate_style;
-use super::{link_to, Cached, Content, OutCell, Sheet, Style};
+use super::{link_to, list_holds, Cached, Choices, Content, OutCell, Region, Sheet, Style};
+use crate::cells::CellRange;
 use crate::cells::column_letters;
 use crate::predict;
 use crate::protocol::{Link, PredictorForm};
@@ -58,6 +59,7 @@ fn value_cell(v: &NewValue, style: Style) -> OutCell {
 /// The prediction table of one `#predict` request from `row`; returns the
 /// next free row.
 fn prediction_table(s: &mut Sheet, mut row: u32, r: &Report, p: &Prediction) -> u32 {
+    let first = row;
     s.put(row, 0, OutCell::text(format!("Predictions — {}", r.text.trim()), Style::Title));
     row += 1;
     s.put(
@@ -94,6 +96,7 @@ fn prediction_table(s: &mut Sheet, mut row: u32, r: &Report, p: &Prediction) -> 
         }
         row += 1;
     }
+    s.regions.push(Region { owner: r.cell.clone(), what: "the prediction table".into(), first_row: first, last_row: row - 1 });
     row + 1
 }
 
@@ -157,7 +160,18 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
             }
             InputKind::Levels { levels, base } => {
                 s.put(rr, 2, OutCell::text(format!("levels: {} (reference level {base})", levels.join(", ")), Style::Plain));
-                s.choices.insert((rr, 1), levels.clone());
+                if list_holds(levels) {
+                    s.choices.insert((rr, 1), Choices::List(levels.clone()));
+                } else if !levels.is_empty() {
+                    // Too long for a list, or a level with a comma: the
+                    // list reads the levels from cells across the row.
+                    s.put(row + 2, 4, OutCell::text("Levels (for the list)", Style::Header));
+                    for (j, l) in levels.iter().enumerate() {
+                        s.put(rr, 4 + j as u32, OutCell::text(l, Style::Plain));
+                    }
+                    let cells = CellRange { first_row: rr, first_col: 4, last_row: rr, last_col: 4 + levels.len() as u32 - 1 };
+                    s.choices.insert((rr, 1), Choices::Cells(cells));
+                }
             }
         }
     }
@@ -220,6 +234,7 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
             s.put(rr, vcol0 + m as u32, OutCell::number(*v, Style::Number));
         }
     }
+    s.regions.push(Region { owner: r.cell.clone(), what: format!("the prediction calculator of {}", r.name), first_row: row, last_row: r_t1 });
     r_t1 + 3
 }
 

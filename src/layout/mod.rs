@@ -8,8 +8,10 @@
 //! One file per result sheet: `fits.rs`, `coefficients.rs`, `intervals.rs`
 //! (interval table, `#predict` tables, prediction calculators),
 //! `diagnostics.rs`, `comparisons.rs`, `charts.rs`, `guide.rs`, `about.rs`;
-//! `overlays.rs` holds what is added to the source sheets. This file holds
-//! the model and [`lay_out`], which calls them in order.
+//! `overlays.rs` holds what is added to the source sheets; `parts.rs` the
+//! parts of one request (charts, regions of rows) and leaving one out. This
+//! file holds the model, the names sheets are written under, and
+//! [`lay_out`], which calls them in order.
 //!
 //! Source sheets are not copied into the model: they get an [`Overlay`] of
 //! replaced cells and added column blocks, which the writer merges with the
@@ -24,14 +26,16 @@ mod fits;
 mod guide;
 mod intervals;
 mod overlays;
+mod parts;
 
 pub use charts::{chart_subset, CHART_POINTS};
 pub use intervals::CALCULATOR_MAX_TERMS;
 pub use overlays::outcome_line;
+pub use parts::{list_holds, Part, Refused, Region, SheetAt, LIST_MAX};
 
 use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Workbook};
 use crate::report::{Report, RunInfo};
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{BTreeMap, HashMap, HashSet};
 
 /// How a cell looks.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -163,10 +167,22 @@ pub struct Sheet {
     pub freeze: Option<(u32, u32)>,
     /// A filter over a table.
     pub filter: Option<CellRange>,
-    /// Cells that offer a drop-down list of these choices.
-    pub choices: BTreeMap<(u32, u32), Vec<String>>,
+    /// Cells that offer a drop-down list of choices.
+    pub choices: BTreeMap<(u32, u32), Choices>,
     /// Charts placed on the sheet.
     pub charts: Vec<ChartSpec>,
+    /// Bands of rows that belong to one request (a calculator, a
+    /// prediction table), so that one can be left out alone.
+    pub regions: Vec<Region>,
+}
+
+/// The choices of a drop-down list.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Choices {
+    /// Written into the list itself (when [`list_holds`] them).
+    List(Vec<String>),
+    /// Read from cells of the same sheet (one row or one column).
+    Cells(CellRange),
 }
 
 /// A native chart of the workbook, reading cells (no writer types).
@@ -182,6 +198,8 @@ pub struct ChartSpec {
     pub y_label: String,
     /// The series, drawn in order.
     pub series: Vec<SeriesSpec>,
+    /// The request the chart shows.
+    pub owner: Option<CellAddress>,
 }
 
 /// One series of a scatter chart: x and y from one-column ranges.
@@ -255,6 +273,9 @@ pub struct Overlay {
 pub struct Book {
     /// One overlay per source sheet.
     pub overlays: Vec<Overlay>,
+    /// The name each source sheet is written under, in source order (see
+    /// [`output_sheet_names`]).
+    pub source_names: Vec<String>,
     /// The result sheets in order.
     pub sheets: Vec<Sheet>,
     /// Whether source formulas are kept (false when the source's formula
@@ -285,8 +306,44 @@ pub(crate) fn link_to(sheet: &str, row: u32, col: u32) -> String {
     format!("{}!{}", quote_sheet_name(sheet), CellAddress::new(sheet, row, col).local())
 }
 
-/// The names of the result sheets in this workbook (see [`RESULT_SHEETS`]).
+/// A sheet name the output format accepts: at most 31 characters, none of
+/// `[]:*?/\`, not starting or ending with `'`, not blank. (Other formats
+/// allow longer names and more characters.)
+pub fn valid_sheet_name(name: &str) -> String {
+    let cleaned: String = name.chars().map(|c| if "[]:*?/\\".contains(c) { '_' } else { c }).collect();
+    let cleaned = cleaned.trim_matches('\'').to_string();
+    let cut: String = cleaned.chars().take(31).collect();
+    if cut.trim().is_empty() {
+        "Sheet".into()
+    } else {
+        cut
+    }
+}
+
+/// The name each source sheet is written under: its own when the output
+/// format accepts it, else [`valid_sheet_name`] of it, numbered when that
+/// clashes (names compare ignoring case). Links and references to source
+/// sheets use these names; messages keep the input's.
+pub fn output_sheet_names(book: &Workbook) -> Vec<String> {
+    let mut used: Vec<String> = Vec::new();
+    for g in &book.sheets {
+        let mut name = valid_sheet_name(&g.name);
+        let mut k = 2;
+        while used.iter().any(|n| n.to_lowercase() == name.to_lowercase()) {
+            let suffix = format!(" {k}");
+            name = format!("{}{suffix}", valid_sheet_name(&g.name).chars().take(31 - suffix.len()).collect::<String>());
+            k += 1;
+        }
+        used.push(name);
+    }
+    used
+}
+
+/// The names of the result sheets in this workbook (see [`RESULT_SHEETS`]),
+/// and the output names of the source sheets.
 struct SheetNames {
+    /// Input name → output name of every source sheet.
+    source: HashMap<String, String>,
     fits: String,
     coefficients: String,
     intervals: String,
@@ -298,18 +355,25 @@ struct SheetNames {
 }
 
 impl SheetNames {
-    fn new(book: &Workbook) -> Self {
-        let taken: HashSet<String> = book.sheets.iter().map(|g| g.name.to_lowercase()).collect();
+    fn new(book: &Workbook, source_names: &[String]) -> Self {
+        let taken: HashSet<String> = source_names.iter().map(|n| n.to_lowercase()).collect();
         let n: Vec<String> = RESULT_SHEETS.iter().map(|n| unique_name(n, &taken)).collect();
         let mut it = n.into_iter();
         let mut next = || it.next().unwrap_or_default();
-        SheetNames { fits: next(), coefficients: next(), intervals: next(), diagnostics: next(), guide: next(), about: next(), comparisons: next(), charts: next() }
+        let source = book.sheets.iter().map(|g| g.name.clone()).zip(source_names.iter().cloned()).collect();
+        SheetNames { source, fits: next(), coefficients: next(), intervals: next(), diagnostics: next(), guide: next(), about: next(), comparisons: next(), charts: next() }
+    }
+
+    /// The output name of a source sheet.
+    fn source<'a>(&'a self, input: &'a str) -> &'a str {
+        self.source.get(input).map(String::as_str).unwrap_or(input)
     }
 }
 
 /// Lays out the whole output.
 pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
-    let names = SheetNames::new(book);
+    let source_names = output_sheet_names(book);
+    let names = SheetNames::new(book, &source_names);
     // Coefficients first: other sheets link to its rows.
     let (coef, first_coef_row) = coefficients::sheet(&names.coefficients, reports);
     let (ints, mut host_links) = intervals::sheet(&names.intervals, reports);
@@ -320,7 +384,7 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
         }
     }
     let charts = charts::sheet(&names.charts, reports);
-    let fits = fits::sheet(&names.fits, &names.coefficients, reports, &first_coef_row);
+    let fits = fits::sheet(&names, reports, &first_coef_row);
     let diag = diagnostics::sheet(&names.diagnostics, reports);
     let overlays = overlays::overlays(book, reports, &names, &first_coef_row, &host_links);
     let guide = guide::sheet(&names.guide);
@@ -329,12 +393,31 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     sheets.extend(comparisons);
     sheets.extend(charts);
     sheets.extend([guide, about]);
-    Book { overlays, sheets, keep_formulas: true }
+    Book { overlays, source_names, sheets, keep_formulas: true }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn sheet_names_are_made_valid() {
+        assert_eq!(valid_sheet_name("a/b:c"), "a_b_c");
+        assert_eq!(valid_sheet_name(&"x".repeat(40)).chars().count(), 31);
+        assert_eq!(valid_sheet_name("Données"), "Données");
+        assert_eq!(valid_sheet_name("'quoted'"), "quoted");
+    }
+
+    #[test]
+    fn clashing_output_names_are_numbered() {
+        use crate::cells::Grid;
+        let long = "x".repeat(40);
+        let book = Workbook { sheets: vec![Grid::new("a/b"), Grid::new("a:b"), Grid::new("a?b"), Grid::new(&long), Grid::new(format!("{long}y"))] };
+        let names = output_sheet_names(&book);
+        assert_eq!(names[..3], ["a_b", "a_b 2", "a_b 3"]);
+        assert_eq!(names[3], "x".repeat(31));
+        assert_eq!(names[4], format!("{} 2", "x".repeat(29)));
+    }
 
     #[test]
     fn result_sheets_do_not_clash_with_source_sheets() {

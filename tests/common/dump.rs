@@ -15,7 +15,7 @@ use std::path::{Path, PathBuf};
 
 use plumb::cells::{column_letters, CellAddress, Workbook};
 use plumb::fits::Registry;
-use plumb::layout::{lay_out, Book, Cached, ChartSpec, Content, OutCell, Overlay, Sheet};
+use plumb::layout::{lay_out, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Sheet};
 use plumb::report::RunInfo;
 use plumb::pipeline::evaluate_book;
 
@@ -115,8 +115,12 @@ pub fn dump_sheet(s: &Sheet) -> String {
     if let Some(f) = &s.filter {
         let _ = writeln!(out, "filter {f}");
     }
-    for (&(r, c), list) in &s.choices {
-        let _ = writeln!(out, "choices {}  {list:?}", CellAddress::new("", r, c).local());
+    for (&(r, c), choices) in &s.choices {
+        let at = CellAddress::new("", r, c).local();
+        let _ = match choices {
+            Choices::List(list) => writeln!(out, "choices {at}  {list:?}"),
+            Choices::Cells(range) => writeln!(out, "choices {at}  from {range}"),
+        };
     }
     for ch in &s.charts {
         chart(&mut out, ch);

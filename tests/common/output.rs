@@ -108,3 +108,80 @@ pub fn anova(path: &Path, fit: &str, source: &str, column: &str) -> Option<f64> 
     let row = t[head + 1..head + 4].iter().find(|r| r.first().and_then(text).is_some_and(|l| l.starts_with(source)))?;
     row.get(col).and_then(num)
 }
+
+/// The text of every part of the output's zip package whose name starts
+/// with `prefix` (such as `xl/charts/chart`), as (name, text), in
+/// numeric order of the parts' numbers.
+pub fn parts(path: &Path, prefix: &str) -> Vec<(String, String)> {
+    use std::io::Read;
+    let f = std::fs::File::open(path).unwrap_or_else(|e| panic!("cannot open {}: {e}", path.display()));
+    let mut z = zip::ZipArchive::new(f).unwrap_or_else(|e| panic!("{} is not a zip: {e}", path.display()));
+    let mut names: Vec<String> = z.file_names().filter_map(|n| n.ok().map(|n| n.to_string())).filter(|n| n.starts_with(prefix)).collect();
+    let number = |n: &str| n[prefix.len()..].chars().take_while(char::is_ascii_digit).collect::<String>().parse::<u32>().unwrap_or(0);
+    names.sort_by_key(|n| number(n));
+    names
+        .into_iter()
+        .map(|n| {
+            let mut s = String::new();
+            z.by_name(&n).unwrap_or_else(|e| panic!("no part {n}: {e}")).read_to_string(&mut s).unwrap_or_else(|e| panic!("part {n}: {e}"));
+            (n, s)
+        })
+        .collect()
+}
+
+/// The worksheet part of the sheet `name` (the writer numbers the parts in
+/// sheet order).
+pub fn sheet_xml(path: &Path, name: &str) -> String {
+    let idx = sheet_names(path).iter().position(|n| n == name).unwrap_or_else(|| panic!("no sheet {name} in {}", path.display())) + 1;
+    let part = format!("xl/worksheets/sheet{idx}.xml");
+    parts(path, &part).into_iter().find(|(n, _)| *n == part).map(|(_, s)| s).unwrap_or_else(|| panic!("no part {part}"))
+}
+
+/// XML text or attribute value with the five predefined entities replaced.
+pub fn xml_unescape(s: &str) -> String {
+    s.replace("&lt;", "<").replace("&gt;", ">").replace("&quot;", "\"").replace("&apos;", "'").replace("&amp;", "&")
+}
+
+/// Every value of `attr="…"` in `xml`, unescaped.
+pub fn attributes(xml: &str, attr: &str) -> Vec<String> {
+    let open = format!(" {attr}=\"");
+    xml.split(&open).skip(1).filter_map(|p| p.split('"').next()).map(xml_unescape).collect()
+}
+
+/// Every text between `open` and `close` in `xml`, unescaped.
+pub fn elements(xml: &str, open: &str, close: &str) -> Vec<String> {
+    xml.split(open).skip(1).filter_map(|p| p.split(close).next()).map(xml_unescape).collect()
+}
+
+/// A reference `Sheet!A1:B2` or `'It''s'!$A$1` split into the sheet name
+/// (unquoted, inner quotes undoubled) and the cells; `None` without a sheet.
+pub fn split_reference(r: &str) -> Option<(String, String)> {
+    let r = r.trim_start_matches('=');
+    if let Some(rest) = r.strip_prefix('\'') {
+        let mut name = String::new();
+        let mut chars = rest.char_indices().peekable();
+        while let Some((i, c)) = chars.next() {
+            if c == '\'' {
+                if chars.peek().map(|p| p.1) == Some('\'') {
+                    chars.next();
+                    name.push('\'');
+                    continue;
+                }
+                return rest[i + 1..].strip_prefix('!').map(|cells| (name, cells.to_string()));
+            }
+            name.push(c);
+        }
+        None
+    } else {
+        r.split_once('!').map(|(s, c)| (s.to_string(), c.to_string()))
+    }
+}
+
+/// `$C$5` or `AA12` → (row, column), zero-based.
+pub fn cell_index(a1: &str) -> Option<(u32, u32)> {
+    let a1 = a1.replace('$', "");
+    let letters: String = a1.chars().take_while(|c| c.is_ascii_alphabetic()).collect();
+    let row: u32 = a1[letters.len()..].parse().ok()?;
+    let col = plumb::cells::column_index(&letters)?;
+    Some((row.checked_sub(1)?, col))
+}
