@@ -657,6 +657,15 @@ mod tests {
     }
 
     #[test]
+    fn a_request_typed_as_a_spreadsheet_user_would_is_understood() {
+        // Typographic quotes, `;` between arguments and a percent.
+        let s = evaluate_book(&small_book(&["#linear(“y”; x, level=90%)"]), "t.xlsx", &Registry::builtin());
+        let r = &s.reports[0];
+        assert_ne!(r.status, Status::Error, "{:?}", r.messages);
+        assert_eq!(r.level, 0.9);
+    }
+
+    #[test]
     fn default_output_sits_beside_the_input() {
         let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
         assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");

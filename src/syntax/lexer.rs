@@ -45,6 +45,11 @@ pub(crate) struct Token {
     pub span: Span,
 }
 
+/// A double quote: straight, or typographic as autocorrect types it.
+fn is_double_quote(c: char) -> bool {
+    matches!(c, '"' | '“' | '”' | '„')
+}
+
 /// True for a character that may start an identifier.
 pub(crate) fn is_ident_start(c: char) -> bool {
     c.is_alphabetic() || c == '_'
@@ -132,7 +137,9 @@ impl<'a> Lexer<'a> {
         let simple = match c {
             '(' => Some(TokenKind::LParen),
             ')' => Some(TokenKind::RParen),
-            ',' => Some(TokenKind::Comma),
+            // `;` separates arguments in spreadsheets of many languages:
+            // it has no other meaning here, so it is a comma.
+            ',' | ';' => Some(TokenKind::Comma),
             '=' => Some(TokenKind::Eq),
             '+' => Some(TokenKind::Plus),
             '-' => Some(TokenKind::Minus),
@@ -154,16 +161,16 @@ impl<'a> Lexer<'a> {
         if c.is_ascii_digit() || (c == '.' && next_is_digit) {
             return self.number(start);
         }
-        if c == '"' {
-            let (value, end) = self.quoted(start, '"')?;
+        if is_double_quote(c) {
+            let (value, end) = self.quoted(start, c)?;
             self.pos = end;
             return Ok(Token {
                 kind: TokenKind::Quoted(value),
                 span: Span::new(start, end),
             });
         }
-        if c == '\'' {
-            let (value, end) = self.quoted(start, '\'')?;
+        if c == '\'' || c == '‘' || c == '’' {
+            let (value, end) = self.quoted(start, c)?;
             if self.char_at(end) == Some('!') {
                 return self.range(start, Some(value), end + 1);
             }
@@ -214,7 +221,10 @@ impl<'a> Lexer<'a> {
                 end = self.scan_while(exp, digit);
             }
         }
-        if self.char_at(end).is_some_and(is_ident_continue) {
+        // A percent sign makes a share: `90%` is 0.9 (as in a cell).
+        let percent = self.char_at(end) == Some('%');
+        if self.char_at(end + usize::from(percent)).is_some_and(is_ident_continue) {
+            let end = end + usize::from(percent);
             // The number runs into letters or a second point: `2x`, `1.2.3`, `2e`.
             let bad_end = self.scan_while(end, is_ident_continue);
             let span = Span::new(start, bad_end);
@@ -226,10 +236,12 @@ impl<'a> Lexer<'a> {
                     .to_string(),
             });
         }
-        let span = Span::new(start, end);
         let literal = &self.text[start..end];
+        let end = end + usize::from(percent);
+        let span = Span::new(start, end);
         match literal.parse::<f64>() {
             Ok(v) if v.is_finite() => {
+                let v = if percent { v / 100.0 } else { v };
                 self.pos = end;
                 Ok(Token {
                     kind: TokenKind::Number(v),
@@ -248,11 +260,18 @@ impl<'a> Lexer<'a> {
     /// unescaped text and the offset after the closing quote.
     fn quoted(&self, start: usize, quote: char) -> Result<(String, usize), SyntaxError> {
         let mut value = String::new();
-        let mut at = start + 1;
+        let mut at = start + quote.len_utf8();
+        // A straight quote closes with itself; a typographic one (as
+        // autocorrect types them: “…”, „…“, ‘…’) with any quote of its kind.
+        let closes = |c: char| match quote {
+            '"' | '\'' => c == quote,
+            _ if is_double_quote(quote) => is_double_quote(c),
+            _ => c == '\'' || c == '‘' || c == '’',
+        };
         loop {
             match self.char_at(at) {
                 None => {
-                    let (close, twice, kind) = if quote == '"' {
+                    let (close, twice, kind) = if is_double_quote(quote) {
                         ("`\"`", "`\"\"`", "name")
                     } else {
                         ("`'`", "`''`", "sheet name")
@@ -267,12 +286,12 @@ impl<'a> Lexer<'a> {
                         ),
                     });
                 }
-                Some(c) if c == quote => {
-                    if self.char_at(at + 1) == Some(quote) {
-                        value.push(quote);
-                        at += 2;
+                Some(c) if closes(c) => {
+                    if self.char_at(at + c.len_utf8()) == Some(c) {
+                        value.push(c);
+                        at += 2 * c.len_utf8();
                     } else {
-                        return Ok((value, at + 1));
+                        return Ok((value, at + c.len_utf8()));
                     }
                 }
                 Some(c) => {
@@ -479,6 +498,21 @@ mod tests {
                 TokenKind::Number(7.0),
             ]
         );
+    }
+
+    #[test]
+    fn what_a_spreadsheet_user_types_is_understood() {
+        // A percent is a share, as in a cell: 90% is 0.9, 2.5% is 0.025.
+        assert_eq!(kinds("90% 2.5%"), vec![TokenKind::Number(0.9), TokenKind::Number(0.025)]);
+        assert!(Lexer::new("90%x", 0).next_token().is_err(), "a percent runs into letters");
+        // Typographic quotes, as autocorrect types them, are quotes.
+        assert_eq!(kinds("“Energy (kWh)”"), vec![TokenKind::Quoted("Energy (kWh)".into())]);
+        assert_eq!(kinds("„Höhe“"), vec![TokenKind::Quoted("Höhe".into())]);
+        assert_eq!(kinds("’Bay 2’"), vec![TokenKind::SheetName("Bay 2".into())]);
+        // A straight quote still closes only with itself.
+        assert_eq!(kinds("\"a ” b\""), vec![TokenKind::Quoted("a ” b".into())]);
+        // `;` separates arguments like a comma.
+        assert_eq!(kinds("a; b"), vec![TokenKind::Ident("a".into()), TokenKind::Comma, TokenKind::Ident("b".into())]);
     }
 
     #[test]
