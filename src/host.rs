@@ -188,7 +188,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, s
                         }
                     }
                 }
-                points.push((out, format!("row {}", row + 1)));
+                points.push((out, format!("row {} of {sheet}", row + 1)));
             }
             if points.is_empty() {
                 return Err(ctx.err(v.value_span, "the table of new values has no rows below its headers"));
@@ -235,7 +235,8 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, s
         let mut outside = recipe.outside(vals);
         if let Some(m) = max_lev {
             if pt.leverage > m * (1.0 + 1e-9) {
-                outside.push(format!("its leverage {:.4} exceeds the largest in the data ({m:.4})", pt.leverage));
+                let (a, b) = distinct(pt.leverage, m);
+                outside.push(format!("its leverage {a} exceeds the largest in the data ({b})"));
             }
         }
         if !outside.is_empty() {
@@ -250,6 +251,18 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, s
     }
     let outcome = HostOutcome::Prediction(Prediction { fit: fit.name.clone(), inputs: recipe.inputs.iter().map(|i| i.name.clone()).collect(), level, rows });
     Ok(HostResult { outcome, warnings, response: fit.response.clone(), fits: vec![fit.name.clone()], rows_used: fit.rows_used, level })
+}
+
+/// Two numbers with as few significant digits (at least 3) as make them
+/// read differently, so "0.000105 exceeds 0.000104" never reads as
+/// "0.0001 exceeds 0.0001".
+fn distinct(a: f64, b: f64) -> (String, String) {
+    let show = |x: f64, d: usize| {
+        let s = format!("{:.*e}", d - 1, x);
+        // Back to a plain decimal: parse the rounded value and print it short.
+        s.parse::<f64>().map(|v| format!("{v}")).unwrap_or(s)
+    };
+    (3..=15).map(|d| (show(a, d), show(b, d))).find(|(x, y)| x != y).unwrap_or_else(|| (format!("{a}"), format!("{b}")))
 }
 
 fn norm(s: &str) -> String {
@@ -342,4 +355,14 @@ pub fn compare(cell: &CellAddress, text: &str, req: &Request, spec: &FunctionSpe
     }
     let outcome = HostOutcome::Comparison(Comparison { response: first.response.clone(), fits: compared, lowest_aic, nested, terms });
     Ok(HostResult { outcome, warnings: Vec::new(), response: first.response.clone(), fits: fits.iter().map(|f| f.name.clone()).collect(), rows_used: first.rows_used, level: first.level })
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn close_numbers_are_shown_apart() {
+        // Rounding by hand (common practice).
+        assert_eq!(super::distinct(0.10941, 0.0953), ("0.109".to_string(), "0.0953".to_string()));
+        assert_eq!(super::distinct(0.000105, 0.0001049), ("0.000105".to_string(), "0.0001049".to_string()));
+    }
 }
