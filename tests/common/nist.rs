@@ -99,8 +99,12 @@ pub fn reference_dir() -> Option<PathBuf> {
             if p.join("nist-strd").is_dir() {
                 Some(p)
             } else {
-                println!(
-                    "notice: NIST reference data not found at {} and PLUMB_REFERENCE_DATA is unset; skipping",
+                // Written to the process's stderr directly, past the test
+                // runner's capture of `println!`, so the notice is seen.
+                use std::io::Write;
+                let _ = writeln!(
+                    std::io::stderr(),
+                    "notice: NIST reference data not found at {} and PLUMB_REFERENCE_DATA is unset; skipping the NIST checks",
                     p.display()
                 );
                 None
