@@ -377,7 +377,13 @@ fn evaluate_one(
     let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| fit.fit(&resolved.request)));
     let mut outcome = match result {
         Ok(Ok(o)) => o,
-        Ok(Err(e)) => return fail(report, resolved.fit_problem(&e, &f.cell, &f.text)),
+        Ok(Err(mut e)) => {
+            // An error about one row: name the row by its place on its sheet.
+            if let Some(i) = e.row {
+                e.message = e.message.replace("{row}", &row_place(&resolved.placement, i));
+            }
+            return fail(report, resolved.fit_problem(&e, &f.cell, &f.text));
+        }
         Err(payload) => {
             let why = payload.downcast_ref::<&str>().map(|s| s.to_string()).or_else(|| payload.downcast_ref::<String>().cloned()).unwrap_or_default();
             let p = Problem::error(format!("the fit #{fname} stopped with an internal error ({why}); this is a bug in the fit, not in your data"))
@@ -393,11 +399,7 @@ fn evaluate_one(
     // Warnings about one row: name the row by its place on its sheet.
     let pl = &resolved.placement;
     for w in std::mem::take(&mut outcome.row_warnings) {
-        let place = match pl.rows.get(w.row) {
-            Some(r) => format!("row {} of {}", r + 1, pl.sheet),
-            None => format!("data row {}", w.row + 1),
-        };
-        outcome.warnings.push(w.text.replace("{row}", &place));
+        outcome.warnings.push(w.text.replace("{row}", &row_place(pl, w.row)));
     }
     // Warnings about one term come first, with a caret under the term.
     let term_warnings = std::mem::take(&mut outcome.term_warnings);
@@ -428,6 +430,15 @@ fn evaluate_one(
     report.outcome = Some(outcome);
     report.recipe = resolved.recipe.clone();
     (report, problems)
+}
+
+/// A row sent to a fit, by its index, named by its place on its sheet
+/// ("row 57 of Weekly").
+fn row_place(pl: &crate::resolve::Placement, i: usize) -> String {
+    match pl.rows.get(i) {
+        Some(r) => format!("row {} of {}", r + 1, pl.sheet),
+        None => format!("data row {}", i + 1),
+    }
 }
 
 /// Source cells the xlsx format cannot hold as they are, each as a located

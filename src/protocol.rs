@@ -639,12 +639,24 @@ pub struct FitError {
     /// [`Column::name`]), so the host can point at it in the request text.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub term: Option<String>,
+    /// The row at fault, by its index among the rows sent (zero-based): the
+    /// host replaces `{row}` in the message with the row's place on its
+    /// sheet ("row 57 of Weekly"). Optional in the JSON, so protocol
+    /// version 1 is unchanged.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub row: Option<usize>,
 }
 
 impl FitError {
     /// A new error.
     pub fn new(message: impl Into<String>) -> Self {
-        FitError { message: message.into(), help: None, term: None }
+        FitError { message: message.into(), help: None, term: None, row: None }
+    }
+    /// Names the row at fault (index among the rows sent); the message
+    /// says where with `{row}`.
+    pub fn at_row(mut self, row: usize) -> Self {
+        self.row = Some(row);
+        self
     }
     /// Adds what would fix it.
     pub fn help(mut self, help: impl Into<String>) -> Self {

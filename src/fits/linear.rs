@@ -27,7 +27,7 @@ pub struct Linear {
     spec: FunctionSpec,
 }
 
-fn param(name: &str, kind: ParamKind, default: Option<&str>, choices: &[&str], help: &str) -> ParamSpec {
+pub(crate) fn param(name: &str, kind: ParamKind, default: Option<&str>, choices: &[&str], help: &str) -> ParamSpec {
     ParamSpec {
         name: name.into(),
         kind,
@@ -105,22 +105,23 @@ pub(crate) fn power_groups(req: &FitRequest) -> Vec<(&[f64], PowerColumns)> {
     groups.into_iter().map(|g| (g.1, g.2)).collect()
 }
 
-fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
+/// A statistic shown as a decimal figure.
+pub(crate) fn stat(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic::new(key, label, group, value)
 }
 
 /// A count or degrees of freedom.
-fn count(key: &str, label: &str, group: &str, value: f64) -> Statistic {
+pub(crate) fn count(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic::new(key, label, group, value).format(NumberFormat::Integer)
 }
 
 /// A p-value.
-fn pval(key: &str, label: &str, group: &str, value: f64) -> Statistic {
+pub(crate) fn pval(key: &str, label: &str, group: &str, value: f64) -> Statistic {
     Statistic::new(key, label, group, value).format(NumberFormat::PValue)
 }
 
 /// A figure on a known scale, shown to `d` decimals.
-fn dec(key: &str, label: &str, group: &str, value: f64, d: u8) -> Statistic {
+pub(crate) fn dec(key: &str, label: &str, group: &str, value: f64, d: u8) -> Statistic {
     Statistic::new(key, label, group, value).format(NumberFormat::Decimals(d))
 }
 
@@ -139,7 +140,8 @@ fn term_blocks(req: &FitRequest) -> Vec<(String, Vec<usize>)> {
     out
 }
 
-fn finite(x: f64) -> Option<f64> {
+/// `Some(x)` when finite.
+pub(crate) fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
 }
 

@@ -309,7 +309,7 @@ fn scaled_design(x: &[f64], n: usize, p: usize, sw: Option<&[Dd]>) -> (Vec<f64>,
 }
 
 /// 2-norm condition number of `R` with unit-length columns (SVD, nalgebra).
-fn scaled_condition(r: &[f64], k: usize) -> f64 {
+pub(crate) fn scaled_condition(r: &[f64], k: usize) -> f64 {
     if k == 0 {
         return f64::NAN;
     }

@@ -130,8 +130,9 @@ pub struct Resolved {
     pub term_spans: Vec<(String, Span)>,
     /// Where each column stands in the request text, by label: every
     /// request column by [`Column::name`] (an indicator or product column
-    /// at its term, a model expression's column at its first use), and the
-    /// response.
+    /// at its term, a model expression's column at its first use), the
+    /// response, and a model expression's parameters at their names in the
+    /// group option that declares them (`k` in `start(k=0.2)`).
     pub column_spans: Vec<(String, Span)>,
 }
 
@@ -444,6 +445,7 @@ pub fn resolve(
         .iter()
         .filter_map(|c| Some((c.name.clone(), term_at(&c.term)?)))
         .chain([(request.response.name.clone(), response_expr.span)])
+        .chain(roles.expression.into_iter().flat_map(|x| x.parameters.iter().cloned()))
         .collect();
     Ok(Resolved {
         recipe,
