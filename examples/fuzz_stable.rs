@@ -50,9 +50,9 @@ impl Rng {
 }
 
 const TOKENS: &[&str] = &[
-    "(", ")", ",", "+", "-", "*", "/", "^", "=", "\"", "'", "!", ":", "$", "#", " ", "linear", "log(", "exp(", "sqrt(", "base(",
+    "(", ")", ",", "+", "-", "*", "/", "^", "=", "\"", "'", "!", ":", "$", "#", " ", "linear", "log(", "exp(", "sqrt(", "base(", "against(",
     "Light", "Yield", "CO2", "A1", "C2:C13", "C:C", "XFD1048576", "XFE1", "A0", "Data!", "'Bay 2'!", "1e308", "1e-320", "0.", ".5",
-    "level=", "data=", "weights=", "missing=stop", "intercept=no", "name=", "é", "温", "\u{202e}", "\u{feff}", "\u{0}", "\n", "''", "\"\"",
+    "level=", "data=", "confidence=", "table=", "gaps=stop", "weights=", "missing=stop", "intercept=no", "name=", "é", "温", "\u{202e}", "\u{feff}", "\u{0}", "\n", "''", "\"\"",
 ];
 
 fn mutate(rng: &mut Rng, data: &mut Vec<u8>) {
@@ -100,13 +100,14 @@ fn request_seeds() -> Vec<Vec<u8>> {
     [
         "#linear(Yield, Light)",
         "#linear(Yield, Light + CO2 + Bay, name=bays)",
-        "#linear(Yield, Light + Light^2 + CO2, level=0.99)",
-        "#linear(log(Yield), Light + CO2*Irrigation, missing=stop)",
+        "#linear(Yield, Light + Light^2 + CO2, confidence=0.99)",
+        "#linear(log(Yield), Light + CO2*Irrigation, gaps=stop)",
         "#linear(Yield, Light, weights=Beds, intercept=no)",
-        "#linear(Yield, Light + Bay, base(Bay=\"East\"), data=Weekly!A1:F105)",
+        "#linear(Yield, Light + Bay, against(Bay=\"South\"), table=Weekly!A1:F105)",
+        "#linear(Yield, Light + Bay, base(Bay=\"East\"), data=Weekly!A1:F105, level=0.9, missing=skip)",
         "#linear(Data!F2:F105, Data!C2:C105)",
         "#linear('Bay 2'!C:C, -x^-2*(a-b)/c, \"Outdoor temp\"=14, start(a=40, k=0.2))",
-        "  #f($C$7, C$7, 1.5e3, .5, 3., data='O''Neil')  ",
+        "  #f($C$7, C$7, 1.5e3, .5, 3., table='O''Neil')  ",
         "#linear(Yield, Light",
         "# note",
     ]
@@ -134,7 +135,7 @@ fn sheet_xml_seeds() -> Vec<String> {
             46000 + r
         ));
     }
-    rows.push_str(r#"<row r="10"><c r="A10" t="e"><v>#DIV/0!</v></c><c r="B10"><f>A2*2</f><v>4</v></c><c r="E10" t="inlineStr"><is><t>#linear(B2:B9, A2:A9, level=0.9)</t></is></c></row></sheetData><mergeCells count="1"><mergeCell ref="C12:D13"/></mergeCells>"#);
+    rows.push_str(r#"<row r="10"><c r="A10" t="e"><v>#DIV/0!</v></c><c r="B10"><f>A2*2</f><v>4</v></c><c r="E10" t="inlineStr"><is><t>#linear(B2:B9, A2:A9, confidence=0.9)</t></is></c></row></sheetData><mergeCells count="1"><mergeCell ref="C12:D13"/></mergeCells>"#);
     vec![rows, r#"<sheetData><row r="1"><c r="A1" t="s"><v>0</v></c></row></sheetData>"#.to_string()]
 }
 

@@ -103,7 +103,7 @@ fn records() -> Vec<Record> {
 const REQUESTS: [&str; 9] = [
     "#linear(Yield, Light)",
     "#linear(Yield, Light + CO2 + Irrigation, name=main)",
-    "#linear(Yield, Light + CO2 + Bay, name=bays)",
+    "#linear(Yield, Light + CO2 + Bay, against(Bay=\"East\"), name=bays)",
     "#linear(Yield, Light + Light^2 + CO2, name=curved)",
     "#linear(Yield, Ligth + CO2)",
     "#linear(Yield, Light + CO2, name=simple)",
@@ -118,13 +118,14 @@ const PLAN: [(f64, f64, &str); 4] = [(12.0, 700.0, "North"), (14.0, 900.0, "Sout
 /// Column of the requests: N, leaving G..M (seven columns) empty after the table.
 const REQUEST_COL: u16 = 13;
 
-const NOTES: [&str; 9] = [
+const NOTES: [&str; 10] = [
     "About this workbook",
     "Invented data for trying plumb: a greenhouse with four bays (North, South, East, West), one record per bay per week from 5 January 2026.",
     "Light: hours of light per day, daylight plus lamps. CO2: mean concentration in ppm. Irrigation: litres per square metre per week.",
     "Yield: harvested kilograms per square metre in the week.",
     "A few readings are blank: the sensor was offline that week. plumb leaves such rows out of a fit and says how many.",
     "The requests in column N of the Weekly sheet are what plumb answers. Edit them, or type new ones into any empty cell.",
+    "The third request compares each bay with East, its reference level (against(Bay=\"East\")): its terms read Bay: North vs East, Bay: South vs East, Bay: West vs East.",
     "The fifth request has a typo on purpose (Ligth), to show how plumb reports an error and suggests the closest column name.",
     "The last requests show predictions from a named fit (at typed values, or for each row of the Plan sheet) and a comparison of fits of Yield.",
     "Run: plumb run greenhouse.xlsx",

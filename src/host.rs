@@ -37,7 +37,8 @@ use std::collections::BTreeMap;
 pub struct HostResult {
     /// The tables.
     pub outcome: HostOutcome,
-    /// Warnings (points outside the data).
+    /// Warnings (points outside the data) and notes (options under their
+    /// old names).
     pub warnings: Vec<Problem>,
     /// The response of the fits used.
     pub response: String,
@@ -104,7 +105,7 @@ fn predictor(r: &Report) -> Result<&Predictor, String> {
         .ok_or_else(|| format!("the fit '{}' (#{}) offers no predictions with intervals (its outcome has no predictor)", r.name, r.function))
 }
 
-/// Evaluates `#predict(fit, col=value, … | rows=range, level=…)`, its
+/// Evaluates `#predict(fit, col=value, … | rows=range, confidence=…)`, its
 /// arguments bound against `spec` (`fits::host_functions()`) like any fit's.
 pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, spec: &FunctionSpec, reports: &[&Report]) -> Result<HostResult, Problem> {
     let ctx = Ctx { cell, text };
@@ -116,9 +117,9 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, s
         return Err(ctx.err(req.span, "#predict needs the name of a fit").help("write #predict(main, Light=14) where main is the name= of a #linear request"));
     };
     let rows_arg = bound.option("rows");
-    let level_arg = match bound.option("level") {
+    let level_arg = match bound.option("confidence") {
         Some(BoundArg { value: BoundValue::Number(x), .. }) if *x > 0.0 && *x < 1.0 => Some(*x),
-        Some(a) => return Err(ctx.err(a.value_span, "level= takes a number strictly between 0 and 1, such as level=0.95")),
+        Some(a) => return Err(ctx.err(a.value_span, "the confidence level takes a number strictly between 0 and 1, such as confidence=0.95")),
         None => None,
     };
     let mut given: BTreeMap<String, (NewValue, crate::syntax::Span)> = BTreeMap::new();
@@ -227,7 +228,7 @@ pub fn predict(book: &Workbook, cell: &CellAddress, text: &str, req: &Request, s
     let b: Vec<f64> = o.coefficients.iter().map(|c| c.estimate.unwrap_or(0.0)).collect();
     let max_lev = o.row_column(&RowRole::Leverage).map(|c| c.values.iter().copied().filter(|x| x.is_finite()).fold(0.0, f64::max));
     let mut rows = Vec::new();
-    let mut warnings = Vec::new();
+    let mut warnings = bound.notes.clone();
     for (vals, label) in &points {
         let at = if label.is_empty() { String::new() } else { format!(" ({label})") };
         let columns = recipe.columns_at(vals).map_err(|e| ctx.whole(format!("{e}{at}")))?;
@@ -354,7 +355,7 @@ pub fn compare(cell: &CellAddress, text: &str, req: &Request, spec: &FunctionSpe
         }
     }
     let outcome = HostOutcome::Comparison(Comparison { response: first.response.clone(), fits: compared, lowest_aic, nested, terms });
-    Ok(HostResult { outcome, warnings: Vec::new(), response: first.response.clone(), fits: fits.iter().map(|f| f.name.clone()).collect(), rows_used: first.rows_used, level: first.level })
+    Ok(HostResult { outcome, warnings: bound.notes, response: first.response.clone(), fits: fits.iter().map(|f| f.name.clone()).collect(), rows_used: first.rows_used, level: first.level })
 }
 
 #[cfg(test)]

@@ -289,6 +289,16 @@ fn unfinished_report(f: &FoundRequest, function: &str) -> Report {
     }
 }
 
+/// A finished request's warnings and notes on its report, each on one
+/// line, and its status: a warning makes it [`Status::Warning`], a note alone
+/// does not.
+fn set_messages(report: &mut Report, problems: &[Problem]) {
+    let (notes, warnings): (Vec<&Problem>, Vec<&Problem>) = problems.iter().partition(|p| p.severity == Severity::Note);
+    report.messages = warnings.iter().map(|p| p.one_line()).collect();
+    report.notes = notes.iter().map(|p| p.one_line()).collect();
+    report.status = if warnings.is_empty() { Status::Ok } else { Status::Warning };
+}
+
 /// Evaluates one `#predict` or `#compare` request against the fits.
 fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, registry: &Registry, fits: &[&Report]) -> (Report, Vec<Problem>) {
     let fname = parsed.function.name.to_lowercase();
@@ -304,8 +314,7 @@ fn evaluate_host(book: &Workbook, f: &FoundRequest, parsed: &syntax::Request, re
             report.terms = h.fits;
             report.rows_used = h.rows_used;
             report.level = h.level;
-            report.messages = h.warnings.iter().map(|p| p.one_line()).collect();
-            report.status = if h.warnings.is_empty() { Status::Ok } else { Status::Warning };
+            set_messages(&mut report, &h.warnings);
             report.host = Some(h.outcome);
             (report, h.warnings)
         }
@@ -415,10 +424,7 @@ fn evaluate_one(
     for w in outcome.warnings.iter().skip(term_warnings.len()) {
         problems.push(Problem::warning(w.clone()).at(f.cell.clone()));
     }
-    let (notes, warnings): (Vec<&Problem>, Vec<&Problem>) = problems.iter().partition(|p| p.severity == Severity::Note);
-    report.messages = warnings.iter().map(|p| p.one_line()).collect();
-    report.notes = notes.iter().map(|p| p.one_line()).collect();
-    report.status = if warnings.is_empty() { Status::Ok } else { Status::Warning };
+    set_messages(&mut report, &problems);
     report.place = Some(RowsPlace {
         sheet: pl.sheet.clone(),
         header_row: pl.header_row,

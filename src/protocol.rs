@@ -91,7 +91,7 @@ impl FunctionSpec {
         self.options.iter().find(|o| o.name.eq_ignore_ascii_case(name))
     }
 
-    /// The call pattern, such as `#linear(response, terms, name=…, level=0.95)`.
+    /// The call pattern, such as `#linear(response, terms, name=…, confidence=0.95)`.
     pub fn signature(&self) -> String {
         let mut parts: Vec<String> = self
             .positional
@@ -112,7 +112,7 @@ impl FunctionSpec {
 
 impl ParamSpec {
     /// How the option is written in a request: `name=`, or `name(…)` for a
-    /// group option such as `base(Bay="East")`.
+    /// group option such as `against(Bay="East")`.
     pub fn written(&self) -> String {
         if self.kind == ParamKind::Group {
             format!("{}(…)", self.name)
@@ -176,7 +176,7 @@ pub enum OptionValue {
     /// A word or text.
     Text(String),
     /// The `key=value` pairs of a group option such as `start(a=40, k=0.2)`
-    /// or `base(Bay="East")`, keys as typed (trimmed), values numbers or text.
+    /// or `against(Bay="East")`, keys as typed (trimmed), values numbers or text.
     Group(BTreeMap<String, OptionValue>),
 }
 
@@ -184,7 +184,7 @@ pub enum OptionValue {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct Column {
-    /// Label used in the output (`Light`, `Light^2`, `Bay=North`).
+    /// Label used in the output (`Light`, `Light^2`, `Bay: North vs East`).
     pub name: String,
     /// The term of the request this column belongs to.
     pub term: String,

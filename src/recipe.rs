@@ -371,7 +371,7 @@ mod tests {
                 Node::Bin(Op::Pow, Box::new(Node::Input(0)), Box::new(Node::Number(2.0))),
                 Node::Bin(Op::Mul, Box::new(Node::Input(0)), Box::new(Node::Input(1))),
             ],
-            columns: vec!["Light".into(), "Light^2".into(), "Light*(Bay=North)".into(), "Light*(Bay=West)".into()],
+            columns: vec!["Light".into(), "Light^2".into(), "Light*(Bay: North vs East)".into(), "Light*(Bay: West vs East)".into()],
             single_input: None,
         }
     }

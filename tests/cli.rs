@@ -78,7 +78,7 @@ fn functions_lists_the_vocabulary() {
     assert_eq!(o.status.code(), Some(0));
     let out = String::from_utf8_lossy(&o.stdout);
     assert!(out.contains("#linear(response, terms"), "{out}");
-    for opt in ["level=", "intercept=", "weights=", "missing=", "data=", "name="] {
+    for opt in ["confidence=", "intercept=", "weights=", "gaps=", "table=", "against(", "name="] {
         assert!(out.contains(opt), "{opt} missing from {out}");
     }
 }

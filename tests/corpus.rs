@@ -190,17 +190,17 @@ fn cases() -> Vec<Case> {
         case(
             "headers_only",
             "xlsx",
-            xlsx(&[sheet("Data", table(0, Vec::new())), sheet("Req", vec![(0, 0, t("#linear(Yield, Light, data=Data)")), (3, 0, t("Light")), (3, 1, t("Yield")), (4, 0, C::N(1.0)), (4, 1, C::N(2.0)), (5, 0, C::N(2.0)), (5, 1, C::N(2.5)), (6, 0, C::N(3.0)), (6, 1, C::N(4.5)), (0, 5, t("#linear(Yield, Light, name=good)"))])]),
+            xlsx(&[sheet("Data", table(0, Vec::new())), sheet("Req", vec![(0, 0, t("#linear(Yield, Light, table=Data)")), (3, 0, t("Light")), (3, 1, t("Yield")), (4, 0, C::N(1.0)), (4, 1, C::N(2.0)), (5, 0, C::N(2.0)), (5, 1, C::N(2.5)), (6, 0, C::N(3.0)), (6, 1, C::N(4.5)), (0, 5, t("#linear(Yield, Light, name=good)"))])]),
             1,
             &["Req!A1: error:", "headers but no data rows"],
             true,
         ),
-        request_error("one_data_row", "#linear(Yield, Light, data=Data!A1:C2)", &["1 rows are usable", "needs more rows than parameters"]),
-        request_error("fewer_rows_than_parameters", "#linear(Yield, Light + CO2, data=Data!A1:C3)", &["2 rows are usable", "3 parameters"]),
+        request_error("one_data_row", "#linear(Yield, Light, table=Data!A1:C2)", &["1 rows are usable", "needs more rows than parameters"]),
+        request_error("fewer_rows_than_parameters", "#linear(Yield, Light + CO2, table=Data!A1:C3)", &["2 rows are usable", "3 parameters"]),
         case("text_in_numeric_column", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, Light)")), (4, 0, t("n/a")), (7, 0, t("broken sensor"))]))]), 0, &["2 rows left out: 2 with text in a numeric column (first Data!A5)"], true),
         case("constant_column", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (0, 3, t("Bays")), (1, 6, t("#linear(Yield, Light + Bays)"))].into_iter().chain((1..=12).map(|r| (r, 3, C::N(4.0)))).collect()))]), 0, &["collinear"], true),
         case("collinear_columns", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, Light + Double, name=twice)")), (0, 3, t("Double"))].into_iter().chain((1..=12).map(|r| (r, 3, C::F("A1*2", "0")))).collect()))]), 0, &["collinear"], true),
-        request_error("text_response", "#linear(Bay, Light, data=Data!A1:D13)", &["there is no column headed 'Bay'"]),
+        request_error("text_response", "#linear(Bay, Light, table=Data!A1:D13)", &["there is no column headed 'Bay'"]),
         case("log_of_zero_and_negatives", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, log(Light))")), (2, 0, C::N(0.0)), (3, 0, C::N(-2.0))]))]), 0, &["2 rows left out: 2 where a transform is undefined"], true),
         request_error("log_of_all_invalid", "#linear(Yield, log(-Light))", &["0 rows are usable", "where a transform is undefined"]),
         case("error_values_in_data", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, Light)")), (5, 0, C::F("1/0", "#DIV/0!")), (6, 0, C::F("NA()", "#N/A"))]))]), 0, &["2 rows left out: 2 with an error value (first Data!A6)"], false),
@@ -208,7 +208,7 @@ fn cases() -> Vec<Case> {
         case("not_a_number_value", "xlsx", hand(&hand_table(&istr("G1", "#linear(Yield, Light, name=good)"), Some((5, "NaN")))), 0, &["1 row left out"], true),
         case("duplicate_headers", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (0, 3, t("light")), (1, 3, C::N(1.0)), (1, 6, t("#linear(Yield, CO2 + Light)"))]))]), 1, &["Data!G2: error:", "two or more columns are headed 'Light' (A1, D1)", "fix: rename the headers"], false),
         case("empty_header_cell", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, D2:D13)"))].into_iter().chain((1..=12).map(|r| (r, 3, C::N(r as f64 * 1.5 + (r % 3) as f64)))).collect()))]), 0, &[], true),
-        request_error("unknown_sheet", "#linear(Yield, Light, data=Dta)", &["there is no sheet named 'Dta'", "did you mean Data?"]),
+        request_error("unknown_sheet", "#linear(Yield, Light, table=Dta)", &["there is no sheet named 'Dta'", "did you mean Data?"]),
         request_error("unequal_ranges", "#linear(C2:C13, A2:A9)", &["this range has 8 rows but the request's data has 12"]),
         request_error("range_two_columns_wide", "#linear(C2:C13, A2:B13)", &["one column wide"]),
         request_error("nesting_10000_deep", &format!("#linear(Yield, {}Light{})", "(".repeat(10_000), ")".repeat(10_000)), &["bytes long, more than the limit of 8192 bytes"]),
@@ -216,17 +216,17 @@ fn cases() -> Vec<Case> {
         request_error("too_many_terms", &format!("#linear(Yield, {})", vec!["Light"; 300].join(" + ")), &["more than 256 levels"]),
         request_error("unknown_function", "#lineer(Yield, Light)", &["there is no function #lineer", "did you mean #linear?"]),
         request_error("unknown_transform", "#linear(Yield, logit(Light))", &["'logit' is not a function of the fit language"]),
-        request_error("unknown_option", "#linear(Yield, Light, levl=0.9)", &["#linear has no option 'levl'", "did you mean level?"]),
-        request_error("bad_level", "#linear(Yield, Light, level=95)", &["level=95 is not between 0 and 1"]),
-        request_error("bad_choice", "#linear(Yield, Light, missing=maybe)", &["missing=maybe is not one of the choices", "missing takes skip, stop"]),
+        request_error("unknown_option", "#linear(Yield, Light, confidnce=0.9)", &["#linear has no option 'confidnce'", "did you mean confidence?"]),
+        request_error("bad_level", "#linear(Yield, Light, confidence=95)", &["the confidence level 95 is not between 0 and 1"]),
+        request_error("bad_choice", "#linear(Yield, Light, gaps=maybe)", &["gaps=maybe is not one of the choices", "gaps takes skip, stop"]),
         request_error("bad_intercept", "#linear(Yield, Light, intercept=perhaps)", &["intercept=perhaps is not one of the choices"]),
-        request_error("option_given_twice", "#linear(Yield, Light, level=0.9, level=0.8)", &["given twice"]),
+        request_error("option_given_twice", "#linear(Yield, Light, confidence=0.9, confidence=0.8)", &["given twice"]),
         request_error("missing_argument", "#linear(Yield)", &["needs its"]),
         request_error("syntax_error", "#linear(Yield, Light +)", &["expected"]),
         request_error("unclosed_quote", "#linear(Yield, \"Light)", &["expected"]),
         request_error("negative_weights", "#linear(Yield, Light, weights=-CO2)", &["is negative", "weights must be zero or positive"]),
         request_error("duplicate_fit_name", "#linear(Yield, CO2, name=good)", &["another request is already named 'good'"]),
-        request_error("path_as_sheet", "#linear(Yield, Light, data='/etc/passwd'!A1:B2)", &["there is no sheet named '/etc/passwd'"]),
+        request_error("path_as_sheet", "#linear(Yield, Light, table='/etc/passwd'!A1:B2)", &["there is no sheet named '/etc/passwd'"]),
         request_error("path_in_range", "#linear('/etc/passwd'!A1:A9, Light)", &["there is no sheet named '/etc/passwd'"]),
         // --- Odd but valid workbooks: fitted, copied faithfully.
         case("merged_title_cells", "xlsx", {
@@ -239,7 +239,7 @@ fn cases() -> Vec<Case> {
         case("hidden_data_sheet", "xlsx", {
             let mut hidden = sheet("Readings", table(12, Vec::new()));
             hidden.hidden = true;
-            xlsx(&[sheet("Requests", vec![(0, 0, t("#linear(Yield, Light, data=Readings, name=good)"))]), hidden])
+            xlsx(&[sheet("Requests", vec![(0, 0, t("#linear(Yield, Light, table=Readings, name=good)"))]), hidden])
         }, 0, &[], true),
         case("columns_16384", "xlsx", {
             let mut cells = vec![(0, 16_383, t("Yield")), (0, 16_382, t("Light"))];
@@ -251,12 +251,12 @@ fn cases() -> Vec<Case> {
                 cells.push((i + 1, 16_382, C::N(i as f64)));
                 cells.push((i + 1, 16_383, C::N(2.0 * i as f64 + (i % 3) as f64)));
             }
-            xlsx(&[sheet("Wide", cells), sheet("Req", vec![(0, 0, t("#linear(Yield, Light, data=Wide, name=good)"))])])
+            xlsx(&[sheet("Wide", cells), sheet("Req", vec![(0, 0, t("#linear(Yield, Light, table=Wide, name=good)"))])])
         }, 0, &[], true),
         case("unicode_rtl_long_sheet_names", "xlsx", xlsx(&[
             sheet("温室データ", table(12, vec![good()])),
             sheet("بيانات", table(12, vec![(0, 6, t("#linear(Yield, Light, name=rtl)"))])),
-            sheet(common::workbooks::LONG_SHEET_NAME, vec![(0, 0, t("#linear(Yield, CO2, data='温室データ'!A1:C13, name=long)"))]),
+            sheet(common::workbooks::LONG_SHEET_NAME, vec![(0, 0, t("#linear(Yield, CO2, table='温室データ'!A1:C13, name=long)"))]),
         ]), 0, &[], true),
         case("dates_as_predictors", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (0, 3, t("Day")), (1, 6, t("#linear(Yield, Day + Light)"))].into_iter().chain((1..=12).map(|r| (r, 3, C::Date(2026, 1, r as u8 * 2)))).collect()))]), 0, &[], true),
         case("whole_column_ranges", "xlsx", with_request("#linear(C:C, A:A)", 12), 0, &[], true),

@@ -51,20 +51,23 @@ fn unknown_function_suggests_the_nearest() {
 
 #[test]
 fn unknown_option_lists_the_accepted_ones() {
+    let m = first_problem("#linear(Yield, Light, confidnce=0.9)");
+    assert!(m.contains("#linear has no option 'confidnce'"), "{m}");
+    assert!(m.contains("                          ^^^^^^^^^\n"), "{m}");
+    assert!(m.contains("did you mean confidence?"), "{m}");
+    assert!(m.contains("name, confidence, intercept, weights, gaps, table, against"), "{m}");
+    // A slip of an old name suggests the new one.
     let m = first_problem("#linear(Yield, Light, levl=0.9)");
-    assert!(m.contains("#linear has no option 'levl'"), "{m}");
-    assert!(m.contains("                          ^^^^\n"), "{m}");
-    assert!(m.contains("did you mean level?"), "{m}");
-    assert!(m.contains("name, level, intercept, weights, missing, data, base"), "{m}");
+    assert!(m.contains("did you mean confidence?"), "{m}");
 }
 
 #[test]
 fn bad_option_values_say_what_is_accepted() {
-    let m = first_problem("#linear(Yield, Light, missing=maybe)");
-    assert!(m.contains("missing=maybe is not one of the choices"), "{m}");
-    assert!(m.contains("missing takes skip, stop"), "{m}");
-    let m = first_problem("#linear(Yield, Light, level=95)");
-    assert!(m.contains("level=95 is not between 0 and 1"), "{m}");
+    let m = first_problem("#linear(Yield, Light, gaps=maybe)");
+    assert!(m.contains("gaps=maybe is not one of the choices"), "{m}");
+    assert!(m.contains("gaps takes skip, stop"), "{m}");
+    let m = first_problem("#linear(Yield, Light, confidence=95)");
+    assert!(m.contains("the confidence level 95 is not between 0 and 1"), "{m}");
 }
 
 #[test]
@@ -89,13 +92,13 @@ fn one_bad_request_costs_only_itself() {
     assert_eq!(s.reports[0].status, Status::Error);
     assert_ne!(s.reports[1].status, Status::Error, "{:?}", s.reports[1].messages);
     let terms: Vec<String> = s.reports[1].outcome.as_ref().unwrap().coefficients.iter().map(|c| c.term.clone()).collect();
-    // Levels in sorted order: East is the base level.
-    assert_eq!(terms, ["Intercept", "Light", "Bay=North", "Bay=South"]);
+    // Levels in sorted order: East is the reference level.
+    assert_eq!(terms, ["Intercept", "Light", "Bay: North vs East", "Bay: South vs East"]);
 }
 
 #[test]
-fn base_level_and_missing_rows() {
-    let mut b = book(&["#linear(Yield, Light + Bay, base(Bay=\"South\"), name=a)", "#linear(Yield, Light, missing=stop, name=b)"]);
+fn reference_level_and_missing_rows() {
+    let mut b = book(&["#linear(Yield, Light + Bay, against(Bay=\"South\"), name=a)", "#linear(Yield, Light, gaps=stop, name=b)"]);
     b.sheets[0].set(5, 1, plumb::cells::Stored::Empty);
     b.sheets[0].set_text(9, 1, "n/a");
     let s = evaluate_book(&b, "b.xlsx", &Registry::builtin());
@@ -104,9 +107,30 @@ fn base_level_and_missing_rows() {
     assert_eq!(a.rows_left_out, 2);
     assert!(a.notes.iter().any(|m| m.contains("2 rows left out: 1 with a blank cell (first Weekly!B6), 1 with text in a numeric column (first Weekly!B10)")), "{:?}", a.notes);
     let terms: Vec<String> = a.outcome.as_ref().unwrap().coefficients.iter().map(|c| c.term.clone()).collect();
-    assert_eq!(terms, ["Intercept", "Light", "Bay=East", "Bay=North"]);
+    assert_eq!(terms, ["Intercept", "Light", "Bay: East vs South", "Bay: North vs South"]);
     assert_eq!(s.reports[1].status, Status::Error);
-    assert!(s.reports[1].messages[0].contains("missing=stop and 2 rows left out"), "{:?}", s.reports[1].messages);
+    assert!(s.reports[1].messages[0].contains("gaps=stop and 2 rows left out"), "{:?}", s.reports[1].messages);
+}
+
+#[test]
+fn the_old_option_names_still_work_with_a_note() {
+    // Each old spelling gives the fit of the new one, and a note naming the new.
+    let old = ["#linear(Yield, Light + Bay, data=Weekly!A1:D21, level=0.9, missing=skip, base(Bay=\"South\"), name=old)", "#predict(old, Light=12, Bay=\"North\", level=0.8)"];
+    let new = ["#linear(Yield, Light + Bay, table=Weekly!A1:D21, confidence=0.9, gaps=skip, against(Bay=\"South\"), name=old)", "#predict(old, Light=12, Bay=\"North\", confidence=0.8)"];
+    let (s_old, s_new) = (evaluate_book(&book(&old), "b.xlsx", &Registry::builtin()), evaluate_book(&book(&new), "b.xlsx", &Registry::builtin()));
+    for (a, b) in s_old.reports.iter().zip(&s_new.reports) {
+        assert_ne!(a.status, Status::Error, "{:?}", a.messages);
+        assert_eq!((a.status, &a.messages, &a.outcome, &a.host, a.level), (b.status, &b.messages, &b.outcome, &b.host, b.level), "{}", a.text);
+        assert!(b.notes.iter().all(|n| !n.contains("is now")), "{:?}", b.notes);
+    }
+    assert_eq!(s_old.reports[0].level, 0.9);
+    assert_eq!(s_old.reports[1].level, 0.8);
+    let notes = &s_old.reports[0].notes;
+    for (was, now) in [("data=", "table="), ("level=", "confidence="), ("missing=", "gaps="), ("base(…)", "against(…)")] {
+        let want = format!("{was} is now {now}; the old name still works in this version");
+        assert!(notes.contains(&want), "{want} not among {notes:?}");
+    }
+    assert_eq!(s_old.reports[1].notes, ["level= is now confidence=; the old name still works in this version"]);
 }
 
 #[test]

@@ -65,7 +65,7 @@ const REQUESTS: [&str; 7] = [
     "#linear(STACKLOSS, AIRFLOW, name=air)",
     "#linear(STACKLOSS, AIRFLOW + WATERTEMP, name=airwater)",
     "#predict(full, rows=Plan!A1:C5)",
-    "#predict(full, rows=Plan!A1:C5, level=0.90)",
+    "#predict(full, rows=Plan!A1:C5, confidence=0.90)",
     "#compare(air, airwater, full)",
     "#predict(full, AIRFLOW=60, WATERTEMP=20, ACIDCONC=85)",
 ];
@@ -123,7 +123,7 @@ fn a_polynomial_predicts_as_statsmodels_does_on_the_same_powers() {
     // Reference: statsmodels 0.15.0 OLS of STACKLOSS ~ AIRFLOW + I(AIRFLOW**2),
     // get_prediction(...).summary_frame() (tests/data/predict_figures.json).
     let d = scratch("predict-poly");
-    let reqs = ["#polynomial(STACKLOSS, AIRFLOW, degree=2, name=q)", "#predict(q, rows=PolyPlan!A1:A5)", "#predict(q, rows=PolyPlan!A1:A5, level=0.90)", "#predict(q, AIRFLOW=62)"];
+    let reqs = ["#polynomial(STACKLOSS, AIRFLOW, degree=2, name=q)", "#predict(q, rows=PolyPlan!A1:A5)", "#predict(q, rows=PolyPlan!A1:A5, confidence=0.90)", "#predict(q, AIRFLOW=62)"];
     let input = book(&d, &reqs);
     let out = d.join("out.xlsx");
     let s = run_to(&input, &out);
@@ -230,7 +230,7 @@ fn compare_refuses_other_responses_and_other_rows() {
             "#predict(late, AIRFLOW=60)",
             "#linear(STACKLOSS, AIRFLOW, name=late)",
             "#predict(lat, AIRFLOW=60)",
-            "#linear(STACKLOSS, AIRFLOW + WATERTEMP, data=Plant!A1:D15, name=short)",
+            "#linear(STACKLOSS, AIRFLOW + WATERTEMP, table=Plant!A1:D15, name=short)",
             "#compare(a, short)",
         ],
     );
@@ -368,7 +368,7 @@ fn predicting_at_the_data_rows_gives_the_fitted_values() {
         ws.write_number(i + 1, 2, z).unwrap();
         ws.write_string(i + 1, 3, g).unwrap();
     }
-    ws.write_string(1, 6, "#linear(y, x + x^2 + log(z) + x*g + g, name=m, base(g=\"C\"))").unwrap();
+    ws.write_string(1, 6, "#linear(y, x + x^2 + log(z) + x*g + g, name=m, against(g=\"C\"))").unwrap();
     ws.write_string(2, 6, "#predict(m, rows=Data!A1:D31)").unwrap();
     wb.save(&path).unwrap();
     let out = d.join("out.xlsx");

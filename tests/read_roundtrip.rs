@@ -394,7 +394,7 @@ fn the_demo_workbook_reads_as_described() {
         [
             Value::Text("#linear(Yield, Light)"),
             Value::Text("#linear(Yield, Light + CO2 + Irrigation, name=main)"),
-            Value::Text("#linear(Yield, Light + CO2 + Bay, name=bays)"),
+            Value::Text("#linear(Yield, Light + CO2 + Bay, against(Bay=\"East\"), name=bays)"),
             Value::Text("#linear(Yield, Light + Light^2 + CO2, name=curved)"),
             Value::Text("#linear(Yield, Ligth + CO2)"),
         ]

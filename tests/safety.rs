@@ -104,9 +104,9 @@ fn no_request_reads_another_file_or_starts_a_program() {
     // Requests naming other files as sheets, and a cell holding an external
     // reference formula to another workbook.
     let requests = [
-        (0, 4, "#linear(Yield, Light, data='/etc/passwd'!A1:B2)"),
+        (0, 4, "#linear(Yield, Light, table='/etc/passwd'!A1:B2)"),
         (1, 4, "#linear('/etc/passwd'!A1:A12, Light)"),
-        (2, 4, "#linear(Yield, Light, data='../other.xlsx')"),
+        (2, 4, "#linear(Yield, Light, table='../other.xlsx')"),
         (3, 4, "#linear(Yield, Light, name=good)"),
     ];
     book(&d.join("book.xlsx"), &requests);

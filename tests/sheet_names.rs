@@ -75,8 +75,8 @@ fn build(path: &Path) {
     }
     let ws = wb.add_worksheet();
     ws.set_name("Fits").unwrap();
-    // data= naming a table on another sheet by a quoted name.
-    ws.write_string(0, 0, format!("#linear(y, x, data={}!A1:C{}, name=elsewhere)", plumb::cells::quote_sheet_name(DATA_SHEETS[1]), N + 1)).unwrap();
+    // table= naming a table on another sheet by a quoted name.
+    ws.write_string(0, 0, format!("#linear(y, x, table={}!A1:C{}, name=elsewhere)", plumb::cells::quote_sheet_name(DATA_SHEETS[1]), N + 1)).unwrap();
     for (c, name) in DATA_SHEETS.iter().enumerate() {
         let f = format!("=SUM({})", col_range(name, "A"));
         ws.write_formula(2, c as u16, Formula::new(&f).set_result("78")).unwrap();

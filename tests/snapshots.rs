@@ -38,7 +38,7 @@ fn greenhouse_demo() {
     snapshot_of(&Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx"), "greenhouse");
 }
 
-/// A linear fit with a text column, its base level named by `base(...)`.
+/// A linear fit with a text column, its reference level named by `against(...)`.
 /// Invented data: 18 rows, three bays, no noise pattern of note.
 #[test]
 fn linear_with_text_column_and_base() {
@@ -52,7 +52,7 @@ fn linear_with_text_column_and_base() {
         "Beds",
         &["Bay", "Light", "Yield"],
         &[Col::Text(bay), Col::Num(light), Col::Num(yield_)],
-        &[(1, 5, "#linear(Yield, Light + Bay, base(Bay=\"South\"), name=bays)")],
+        &[(1, 5, "#linear(Yield, Light + Bay, against(Bay=\"South\"), name=bays)")],
     );
     // The reader must see what was written before the snapshot means anything.
     let book = read_workbook(&path).expect("read the invented workbook");

@@ -42,12 +42,12 @@ pub(crate) fn param(name: &str, kind: ParamKind, default: Option<&str>, choices:
 pub fn shared_options() -> Vec<ParamSpec> {
     vec![
         param("name", ParamKind::Text, None, &[], "a name other requests use for this fit (default: the request's cell)"),
-        param("level", ParamKind::Number, Some("0.95"), &[], "confidence level of the intervals, between 0 and 1"),
+        param("confidence", ParamKind::Number, Some("0.95"), &[], "confidence level of the intervals, between 0 and 1"),
         param("intercept", ParamKind::Choice, Some("yes"), &["yes", "no"], "fit an intercept"),
         param("weights", ParamKind::Column, None, &[], "a column of non-negative weights (weighted least squares)"),
-        param("missing", ParamKind::Choice, Some("skip"), &["skip", "stop"], "leave out rows with blank or non-numeric cells (and count them), or stop with an error"),
-        param("data", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
-        param("base", ParamKind::Group, None, &[], "base level of a categorical column, e.g. base(Bay=\"East\")"),
+        param("gaps", ParamKind::Choice, Some("skip"), &["skip", "stop"], "a row with a blank, text or error cell in a column the request uses: skip it (and count it), or stop with an error"),
+        param("table", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
+        param("against", ParamKind::Group, None, &[], "the reference level of a text column, which its other levels are compared with, e.g. against(Bay=\"East\")"),
         param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3"], "standard errors: classic (constant variance) or heteroscedasticity-consistent hc0, hc1, hc2, hc3"),
     ]
 }

@@ -145,11 +145,11 @@ pub fn host_functions() -> Vec<FunctionSpec> {
     vec![
         FunctionSpec {
             name: "predict".into(),
-            help: "predicted value, confidence interval of the mean and prediction interval of a new observation, from a named #linear fit at new values given as column=value (or a table with rows=)".into(),
+            help: "the fitted value of a named fit at new values, with the standard error of the fitted value, the confidence interval (where the mean response is estimated to lie) and the prediction interval (where one new observation would fall); new values as column=value, or a table with rows=".into(),
             positional: vec![p("fit", ParamKind::FitName, true, None, "the name= of a #linear request in this workbook")],
             options: vec![
                 p("rows", ParamKind::Range, false, None, "a table of new values, headers in its first row, such as rows=Plan!A1:C13"),
-                p("level", ParamKind::Number, false, None, "confidence level of the intervals (default: the fit's level)"),
+                p("confidence", ParamKind::Number, false, None, "confidence level of both intervals, between 0 and 1 (default: the fit's confidence=)"),
                 p("<column>", ParamKind::Column, false, None, "each column of the fit = its new value, such as Light=14 or Bay=\"North\" (every column the fit uses, unless rows= is given)"),
             ],
         },

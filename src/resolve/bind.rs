@@ -6,7 +6,9 @@
 //! [`ParamKind`] its parameter declares: columns and terms kept as
 //! expressions, a model expression split into parameters and columns with
 //! its [`Formula`], numbers, words of a list, fit names, sheets or ranges,
-//! text and groups, each with its span in the request text. It knows
+//! text and groups, each with its span in the request text. An option
+//! written under a name of an earlier version ([`RENAMED_OPTIONS`]) is
+//! bound to its new name with a note. It knows
 //! nothing of the workbook: a host function (`#predict`, `#compare`) binds
 //! through the same code as a fit.
 
@@ -40,6 +42,36 @@ pub struct Bound {
     pub values: BTreeMap<String, OptionValue>,
     /// The closing `)` of the request, where a missing argument is shown.
     pub end: Span,
+    /// Notes about the arguments: an option written under its old name
+    /// (one note per old name, with a caret under it).
+    pub notes: Vec<Problem>,
+}
+
+/// Option names of an earlier version and the names that replaced them,
+/// `(old, new)`. An old name still binds, to the new name, in this version
+/// (with a note saying so), when the function has an option of the new
+/// name and none of the old; otherwise it means what it always did (for
+/// `#predict`, which has no `table=`, `data=` is a column). Remove an entry
+/// one version after its rename.
+pub const RENAMED_OPTIONS: [(&str, &str); 4] = [("data", "table"), ("level", "confidence"), ("missing", "gaps"), ("base", "against")];
+
+/// The option of `spec` that the old name `name` (lowercase) now means, with
+/// the old name as the table spells it.
+fn renamed<'s>(spec: &'s FunctionSpec, name: &str) -> Option<(&'static str, &'s ParamSpec)> {
+    let (old, new) = RENAMED_OPTIONS.iter().find(|(old, _)| *old == name)?;
+    if spec.options.iter().any(|o| o.name.eq_ignore_ascii_case(old)) {
+        return None;
+    }
+    let o = spec.options.iter().find(|o| !is_catch_all(o) && o.name.eq_ignore_ascii_case(new))?;
+    Some((old, o))
+}
+
+/// The note that an option was written under its old name.
+fn renamed_note(at: &Here, old: &str, new: &ParamSpec, key: &Ident) -> Problem {
+    let was = if new.kind == ParamKind::Group { format!("{old}(…)") } else { format!("{old}=") };
+    Problem::note(format!("{was} is now {}; the old name still works in this version", new.written()))
+        .at(at.cell.clone())
+        .in_text(at.text, key.span.start, key.span.end)
 }
 
 impl Bound {
@@ -59,7 +91,7 @@ pub struct BoundArg {
     pub kind: ParamKind,
     /// The value.
     pub value: BoundValue,
-    /// The whole argument: `level=0.9`, `start(a=40, k=0.2)`, `Light + CO2`.
+    /// The whole argument: `confidence=0.9`, `start(a=40, k=0.2)`, `Light + CO2`.
     pub span: Span,
     /// The value alone: after the `=`; for a group or a positional
     /// argument, the same as `span`.
@@ -92,9 +124,9 @@ pub enum BoundValue {
 /// What a [`ParamKind::Range`] value names.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Place {
-    /// A whole sheet, by name (`data=Sheet2`, `data='Bay 2'`).
+    /// A whole sheet, by name (`table=Sheet2`, `table='Bay 2'`).
     Sheet(String),
-    /// A range of cells (`data=Sheet2!A1:F500`).
+    /// A range of cells (`table=Sheet2!A1:F500`).
     Range(RangeRef),
 }
 
@@ -181,6 +213,8 @@ pub fn bind(spec: &FunctionSpec, req: &Request, cell: &CellAddress, text: &str) 
 /// A named or catch-all argument waiting for its value to be bound.
 struct Pending<'r> {
     param: &'r ParamSpec,
+    /// The name errors call it by: the old name when it was written so.
+    shown: &'r str,
     key: &'r Ident,
     value: &'r Expr,
     span: Span,
@@ -195,6 +229,13 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
     let mut named: Vec<Pending> = Vec::new();
     let mut extra: Vec<Pending> = Vec::new();
     let mut groups: Vec<(&ParamSpec, Span, Vec<GroupEntry>)> = Vec::new();
+    // Notes of options written under an old name, one per old name.
+    let mut notes: Vec<(&str, Problem)> = Vec::new();
+    let mut note_renamed = |old: &'static str, new: &ParamSpec, key: &Ident| {
+        if !notes.iter().any(|(o, _)| *o == old) {
+            notes.push((old, renamed_note(at, old, new, key)));
+        }
+    };
     let accepts = || {
         if spec.options.is_empty() {
             format!("#{} takes no options: {}", spec.name, spec.signature())
@@ -221,17 +262,25 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
             }
             Arg::Named { key, value, span } => {
                 let k = key.name.to_lowercase();
-                let found = spec.options.iter().find(|o| !is_catch_all(o) && o.name.eq_ignore_ascii_case(&k));
+                let mut shown = None;
+                let found = spec.options.iter().find(|o| !is_catch_all(o) && o.name.eq_ignore_ascii_case(&k)).or_else(|| {
+                    let (old, o) = renamed(spec, k.trim())?;
+                    shown = Some(old);
+                    Some(o)
+                });
                 let Some(o) = found else {
                     if let Some(c) = catch_all {
                         let name = key.name.trim();
                         if extra.iter().any(|x| x.key.name.trim().eq_ignore_ascii_case(name)) {
                             return Err(at.err(*span, format!("{} is given twice", key.name)));
                         }
-                        extra.push(Pending { param: c, key, value, span: *span });
+                        extra.push(Pending { param: c, shown: &c.name, key, value, span: *span });
                         continue;
                     }
-                    let near = closest(&k, spec.options.iter().map(|o| o.name.as_str()));
+                    // An old name near the key suggests its new one.
+                    let old_names = RENAMED_OPTIONS.iter().filter(|(old, _)| renamed(spec, old).is_some()).map(|(old, _)| *old);
+                    let near = closest(&k, spec.options.iter().map(|o| o.name.as_str()).chain(old_names));
+                    let near: Vec<&str> = near.into_iter().map(|n| renamed(spec, n).map_or(n, |(_, o)| o.name.as_str())).collect();
                     let help = match near.first() {
                         Some(n) => format!("did you mean {n}? {}", accepts()),
                         None => accepts(),
@@ -242,12 +291,16 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
                     return Err(at.err(*span, format!("{} is written {}(column=value)", o.name, o.name)));
                 }
                 if named.iter().any(|n| std::ptr::eq(n.param, o)) {
-                    return Err(at.err(*span, format!("the option {k} is given twice")).help(format!("keep one {k}=")));
+                    return Err(at.err(*span, format!("the option {} is given twice", o.name)).help(format!("keep one {}=", o.name)));
                 }
-                named.push(Pending { param: o, key, value, span: *span });
+                if let Some(old) = shown {
+                    note_renamed(old, o, key);
+                }
+                named.push(Pending { param: o, shown: shown.unwrap_or(o.name.as_str()), key, value, span: *span });
             }
             Arg::Group { name, entries, span } => {
-                let o = match spec.option(&name.name) {
+                let old = renamed(spec, name.name.trim().to_lowercase().as_str());
+                let o = match spec.option(&name.name).or(old.map(|r| r.1)) {
                     Some(o) if o.kind == ParamKind::Group => o,
                     _ => {
                         return Err(at
@@ -255,6 +308,9 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
                             .help(accepts()))
                     }
                 };
+                if let Some((old, _)) = old {
+                    note_renamed(old, o, name);
+                }
                 let declares_parameters = params.is_some_and(|p| std::ptr::eq(p, o));
                 let mut bound = Vec::new();
                 for (key, v) in entries {
@@ -301,7 +357,7 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
             }
             continue;
         };
-        let value = bind_value(at, &spec.name, o, n.value, Role::Option, &parameters)?;
+        let value = bind_value(at, &spec.name, o, n.value, Role::Option(n.shown), &parameters)?;
         values.insert(o.name.clone(), option_value(at.text, &value, n.value.span));
         options.push(BoundArg { name: o.name.clone(), kind: o.kind, value, span: n.span, value_span: n.value.span });
     }
@@ -318,7 +374,7 @@ pub(super) fn bind_at(at: &Here, spec: &FunctionSpec, req: &Request) -> Result<B
         let value = bind_value(at, &spec.name, x.param, x.value, Role::Pair(&x.key.name), &parameters)?;
         bound_extra.push(BoundArg { name: x.key.name.trim().to_string(), kind: x.param.kind, value, span: x.span, value_span: x.value.span });
     }
-    Ok(Bound { positional: bound_positional, options, extra: bound_extra, values, end })
+    Ok(Bound { positional: bound_positional, options, extra: bound_extra, values, end, notes: notes.into_iter().map(|n| n.1).collect() })
 }
 
 /// One entry of a group: a number (a leading `-` allowed), or a word or
@@ -368,8 +424,8 @@ struct Params<'a> {
 /// Where a value stands, for the wording of errors.
 #[derive(Clone, Copy)]
 enum Role<'a> {
-    /// After `name=`.
-    Option,
+    /// After `name=`, with the name errors call it by.
+    Option(&'a str),
     /// A positional argument.
     Positional,
     /// A catch-all pair, with its key.
@@ -379,8 +435,8 @@ enum Role<'a> {
 /// Binds one value by its parameter's kind.
 fn bind_value(at: &Here, function: &str, p: &ParamSpec, value: &Expr, role: Role, parameters: &Params) -> Result<BoundValue, Problem> {
     let name = match role {
-        Role::Pair(key) => key,
-        _ => p.name.as_str(),
+        Role::Pair(key) | Role::Option(key) => key,
+        Role::Positional => p.name.as_str(),
     };
     Ok(match p.kind {
         ParamKind::Column => BoundValue::Column(value.clone()),

@@ -2,9 +2,10 @@
 //!
 //! This file owns which rows are used (blank, text, error and undefined
 //! cells and zero weights leave a row out and are counted by reason;
-//! `missing=stop` turns them into an error; weights are checked), the model
+//! `gaps=stop` turns them into an error; weights are checked), the model
 //! columns on the kept rows (indicator columns of text columns against a
-//! base level, products, powers of one base column), the shape checks, and
+//! reference level, labelled `Bay: North vs East`; products, powers of one
+//! base column), the shape checks, and
 //! the [`Recipe`] that rebuilds the model columns from new values.
 
 use super::eval::{read_column, Cat, Factor, Num, Why, WHY_WORDS};
@@ -122,13 +123,13 @@ pub(super) fn usable_rows<'t>(
     }
     if stop_on_missing && left.total() > 0 {
         let msg = left.describe().unwrap_or_default();
-        return Err(ctx.err(request_span, format!("missing=stop and {msg}")).help("fill or correct those cells, or use missing=skip to leave the rows out"));
+        return Err(ctx.err(request_span, format!("gaps=stop and {msg}")).help("fill or correct those cells, or use gaps=skip to leave the rows out"));
     }
     Ok(Rows { keep, left_out: left })
 }
 
 /// The model columns on the kept rows: a numeric term is one column, a text
-/// column one indicator column per level but the base, and a product every
+/// column one indicator column per level but the reference level, and a product every
 /// product of its parts' columns. A plain column that is the base of some
 /// power column is marked as its first power (`Light` beside `Light^2`).
 pub(super) fn model_columns(ctx: &Ctx, terms: &[Term], keep: &[usize], bases: &BTreeMap<String, String>) -> Result<Vec<Column>, Problem> {
@@ -139,12 +140,21 @@ pub(super) fn model_columns(ctx: &Ctx, terms: &[Term], keep: &[usize], bases: &B
             Factor::Product(p) => p.iter().collect(),
             x => vec![x],
         };
-        // Each part expands to (label, values on kept rows).
+        // Each part expands to (label, values on kept rows); in a product an
+        // indicator's label is in parentheses: `Light*(Bay: North vs East)`.
+        let in_product = parts.len() > 1;
         let mut expanded: Vec<(String, Vec<f64>)> = vec![(String::new(), vec![1.0; keep.len()])];
         for part in parts {
             let cols: Vec<(String, Vec<f64>)> = match part {
                 Factor::Num(l, v) => vec![(l.clone(), pick(&v.values))],
-                Factor::Cat(c) => indicator_columns(ctx, c, keep, bases, *span)?,
+                Factor::Cat(c) => {
+                    let cols = indicator_columns(ctx, c, keep, bases, *span)?;
+                    if in_product {
+                        cols.into_iter().map(|(l, v)| (format!("({l})"), v)).collect()
+                    } else {
+                        cols
+                    }
+                }
                 Factor::Product(_) => Vec::new(),
             };
             if expanded.len().saturating_mul(cols.len()) > MAX_MODEL_COLUMNS {
@@ -153,12 +163,7 @@ pub(super) fn model_columns(ctx: &Ctx, terms: &[Term], keep: &[usize], bases: &B
             let mut next = Vec::new();
             for (la, va) in &expanded {
                 for (lb, vb) in &cols {
-                    let l = if la.is_empty() {
-                        lb.clone()
-                    } else {
-                        let wrap = |s: &str| if s.contains('=') { format!("({s})") } else { s.to_string() };
-                        format!("{}*{}", wrap(la), wrap(lb))
-                    };
+                    let l = if la.is_empty() { lb.clone() } else { format!("{la}*{lb}") };
                     next.push((l, va.iter().zip(vb).map(|(a, b)| a * b).collect()));
                 }
             }
@@ -190,14 +195,15 @@ pub(super) fn model_columns(ctx: &Ctx, terms: &[Term], keep: &[usize], bases: &B
 
 /// Why a text column has no base level.
 enum NoBase {
-    /// `base(...)` names a word that is not one of its levels.
+    /// `against(...)` names a word that is not one of its levels.
     NotALevel(String),
     /// The column has no values in the rows used.
     NoLevels,
 }
 
 /// The levels of a text column in the kept rows, in sorted order, and its
-/// base level: the level `base(...)` names (ignoring case), else the first.
+/// reference level: the level `against(...)` names (ignoring case), else the
+/// first.
 fn levels_and_base<'c>(c: &'c Cat, keep: &[usize], bases: &BTreeMap<String, String>) -> (Vec<&'c str>, Result<&'c str, NoBase>) {
     let levels: BTreeSet<&str> = keep.iter().filter_map(|&i| c.levels[i].as_deref()).collect();
     let levels: Vec<&str> = levels.into_iter().collect();
@@ -208,9 +214,15 @@ fn levels_and_base<'c>(c: &'c Cat, keep: &[usize], bases: &BTreeMap<String, Stri
     (levels, base)
 }
 
+/// The label of the indicator column of `level` of the text column `column`:
+/// what it is compared with is part of its name, `Bay: North vs East`.
+fn indicator_label(column: &str, level: &str, reference: &str) -> String {
+    format!("{column}: {level} vs {reference}")
+}
+
 /// Indicator columns of a categorical factor on the kept rows: one per level
-/// except the base level (the first in sorted order unless `base(...)` names
-/// another).
+/// except the reference level (the first in sorted order unless
+/// `against(...)` names another).
 fn indicator_columns(ctx: &Ctx, c: &Cat, keep: &[usize], bases: &BTreeMap<String, String>, span: Span) -> Result<Vec<(String, Vec<f64>)>, Problem> {
     let (levels, base) = levels_and_base(c, keep, bases);
     let base = match base {
@@ -239,7 +251,7 @@ fn indicator_columns(ctx: &Ctx, c: &Cat, keep: &[usize], bases: &BTreeMap<String
         .filter(|l| **l != base)
         .map(|l| {
             let values = keep.iter().map(|&i| if c.levels[i].as_deref() == Some(*l) { 1.0 } else { 0.0 }).collect();
-            (format!("{}={}", c.name, l), values)
+            (indicator_label(&c.name, l, base), values)
         })
         .collect())
 }

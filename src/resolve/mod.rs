@@ -16,7 +16,7 @@ mod design;
 mod eval;
 mod tables;
 
-pub use self::bind::{bind, is_catch_all, parameter_group, Bound, BoundArg, BoundExpression, BoundValue, ExprColumn, GroupEntry, Place};
+pub use self::bind::{bind, is_catch_all, parameter_group, Bound, RENAMED_OPTIONS, BoundArg, BoundExpression, BoundValue, ExprColumn, GroupEntry, Place};
 use self::eval::{referenced_names, Factor};
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::Problem;
@@ -121,7 +121,8 @@ pub struct Resolved {
     pub placement: Placement,
     /// Rows left out and why.
     pub left_out: LeftOut,
-    /// Warnings about the data (rows left out, …).
+    /// Warnings and notes about the request and its data (options under
+    /// their old names, rows left out, …).
     pub warnings: Vec<Problem>,
     /// How the model columns are made from the inputs, for predictions;
     /// `None` when a term names a column by a range rather than a header.
@@ -164,7 +165,7 @@ impl Resolved {
 /// The cells a range covers on a grid, corners in order: its columns, and
 /// its rows (for whole columns such as `C:C`, the used rows of the sheet;
 /// row 0 alone on an empty sheet). The one reading of a range's rows for
-/// `data=`, one-column ranges and tables of new values.
+/// `table=`, one-column ranges and tables of new values.
 pub fn range_rows(grid: &Grid, r: &RangeRef) -> CellRange {
     let (first_row, last_row) = match (r.start.row, r.end.row) {
         (Some(a), Some(b)) => (a.min(b), a.max(b)),
@@ -176,19 +177,20 @@ pub fn range_rows(grid: &Grid, r: &RangeRef) -> CellRange {
 /// The options the host applies itself: their meaning is a field of the
 /// [`FitRequest`] or a step of resolution, so they are never repeated in
 /// [`FitRequest::options`]. `name` names the fit for other requests,
-/// `level` is [`FitRequest::level`], `intercept` is
+/// `confidence` is [`FitRequest::level`], `intercept` is
 /// [`FitRequest::intercept`], `weights` (a column) is
-/// [`FitRequest::weights`], `missing` says whether rows with unusable cells
-/// are left out or stop the request, `data` chooses the table, and
-/// `base(...)` the base level of text columns.
-pub const HOST_OPTIONS: [&str; 7] = [NAME, LEVEL, INTERCEPT, WEIGHTS, MISSING, DATA, BASE];
+/// [`FitRequest::weights`], `gaps` says whether rows with unusable cells
+/// are skipped or stop the request, `table` chooses the data table, and
+/// `against(...)` the reference level of text columns. Their earlier
+/// spellings are in [`RENAMED_OPTIONS`].
+pub const HOST_OPTIONS: [&str; 7] = [NAME, CONFIDENCE, INTERCEPT, WEIGHTS, GAPS, TABLE, AGAINST];
 const NAME: &str = "name";
-const LEVEL: &str = "level";
+const CONFIDENCE: &str = "confidence";
 const INTERCEPT: &str = "intercept";
 const WEIGHTS: &str = "weights";
-const MISSING: &str = "missing";
-const DATA: &str = "data";
-const BASE: &str = "base";
+const GAPS: &str = "gaps";
+const TABLE: &str = "table";
+const AGAINST: &str = "against";
 
 /// Where a request is: its cell and text, for errors with a caret.
 #[derive(Clone, Copy)]
@@ -245,7 +247,7 @@ struct HostOptions<'b> {
     level: f64,
     intercept: bool,
     stop_on_missing: bool,
-    /// `base(...)`: lowercase column name → base level.
+    /// `against(...)`: lowercase column name → reference level.
     bases: BTreeMap<String, String>,
     weights: Option<&'b Expr>,
     data: Option<(&'b Place, Span)>,
@@ -254,15 +256,15 @@ struct HostOptions<'b> {
 impl<'b> HostOptions<'b> {
     fn of(at: &Here, bound: &'b Bound) -> Result<Self, Problem> {
         let values = &bound.values;
-        let level = match values.get(LEVEL) {
+        let level = match values.get(CONFIDENCE) {
             Some(OptionValue::Number(x)) => *x,
             _ => 0.95,
         };
         if !(level > 0.0 && level < 1.0) {
-            let span = bound.option(LEVEL).map(|o| o.value_span).unwrap_or(bound.end);
-            return Err(at.err(span, format!("level={level} is not between 0 and 1")).help("write the confidence level as a fraction, such as level=0.95"));
+            let span = bound.option(CONFIDENCE).map(|o| o.value_span).unwrap_or(bound.end);
+            return Err(at.err(span, format!("the confidence level {level} is not between 0 and 1")).help("write the confidence level as a fraction, such as confidence=0.95"));
         }
-        let bases = match bound.option(BASE).map(|o| &o.value) {
+        let bases = match bound.option(AGAINST).map(|o| &o.value) {
             Some(BoundValue::Group(entries)) => entries
                 .iter()
                 .map(|e| {
@@ -283,13 +285,13 @@ impl<'b> HostOptions<'b> {
             },
             level,
             intercept: !matches!(values.get(INTERCEPT), Some(OptionValue::Text(t)) if t == "no"),
-            stop_on_missing: matches!(values.get(MISSING), Some(OptionValue::Text(t)) if t == "stop"),
+            stop_on_missing: matches!(values.get(GAPS), Some(OptionValue::Text(t)) if t == "stop"),
             bases,
             weights: match bound.option(WEIGHTS).map(|o| &o.value) {
                 Some(BoundValue::Column(e)) => Some(e),
                 _ => None,
             },
-            data: bound.option(DATA).and_then(|o| match &o.value {
+            data: bound.option(TABLE).and_then(|o| match &o.value {
                 BoundValue::Range(p) => Some((p, o.value_span)),
                 _ => None,
             }),
@@ -407,9 +409,9 @@ pub fn resolve(
             .err(req.span, format!("{} rows are usable{lost}, but the model has {p} parameters; least squares needs more rows than parameters", keep.len()))
             .help("add data rows or use fewer terms"));
     }
-    let mut warnings = Vec::new();
+    let mut warnings = bound.notes.clone();
     if let Some(d) = left_out.describe() {
-        // Leaving out unusable rows is what was asked (missing=skip): a note.
+        // Leaving out unusable rows is what was asked (gaps=skip): a note.
         warnings.push(Problem::note(d).at(cell.clone()));
     }
     let request = FitRequest {

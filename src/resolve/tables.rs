@@ -3,7 +3,7 @@
 //! This file owns the [`Frame`] (the data rows of one request, with the
 //! table's headers), how a table is found on a sheet (runs of used columns
 //! between empty columns, titles merged across the top left out, the table
-//! holding the most of the names used), what `data=` and one-column ranges
+//! holding the most of the names used), what `table=` and one-column ranges
 //! cover, and sheet lookup with suggestions.
 
 use super::eval::has_ranges;
@@ -209,7 +209,7 @@ impl Ctx<'_> {
         Ok(RangeColumn { grid, col, rows, header })
     }
 
-    /// The frame of a request: the table `data=` names (a sheet's table or a
+    /// The frame of a request: the table `table=` names (a sheet's table or a
     /// range), else the rows of the first range when no column is named by
     /// header, else the table on the request's own sheet that holds the most
     /// of the `names` used.
@@ -263,7 +263,7 @@ impl Ctx<'_> {
                 let grid = self.sheet(&cell.sheet, req.span)?;
                 let t = pick_table(grid, &request_cells, names).ok_or_else(|| {
                     self.err(req.function.span, format!("the sheet '{}' has no data table besides its requests", grid.name))
-                        .help("put the data in a table whose first row holds headers, or point to it with data=Sheet!A1:F100")
+                        .help("put the data in a table whose first row holds headers, or point to it with table=Sheet!A1:F100")
                 })?;
                 Frame::table(grid, t)
             }

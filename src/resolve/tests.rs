@@ -79,13 +79,14 @@ fn carets_width(text: &str, needle: &str, width: usize) -> String {
 #[test]
 fn predict_binds_its_fit_its_options_and_any_column_as_a_pair() {
     let spec = host("predict");
-    let text = "#predict(main, Light=14, Bay=\"North\", level=0.9, Hours=-2)";
+    let text = "#predict(main, Light=14, Bay=\"North\", confidence=0.9, Hours=-2)";
     let b = bind_text(text, &spec).unwrap();
     assert_eq!(b.positional.len(), 1);
     assert_eq!(b.positional[0].value, BoundValue::FitName("main".into()));
     assert_eq!(slice(text, b.positional[0].span), "main");
-    assert_eq!(b.option("level").map(|o| &o.value), Some(&BoundValue::Number(0.9)));
-    assert_eq!(b.values.get("level"), Some(&OptionValue::Number(0.9)));
+    assert_eq!(b.option("confidence").map(|o| &o.value), Some(&BoundValue::Number(0.9)));
+    assert_eq!(b.values.get("confidence"), Some(&OptionValue::Number(0.9)));
+    assert!(b.notes.is_empty());
     let keys: Vec<&str> = b.extra.iter().map(|x| x.name.as_str()).collect();
     assert_eq!(keys, ["Light", "Bay", "Hours"]);
     assert!(b.extra.iter().all(|x| x.kind == ParamKind::Column));
@@ -127,15 +128,15 @@ fn compare_takes_two_or_more_fit_names() {
     let p = bind_text("#compare(main)", &spec).unwrap_err();
     assert!(p.message.starts_with("#compare needs its fit argument"), "{}", p.message);
     assert_eq!(carets(&p), "    #compare(main)\n                 ^\n");
-    let p = bind_text("#compare(main, curved, level=0.9)", &spec).unwrap_err();
-    assert_eq!(p.message, "#compare has no option 'level'");
+    let p = bind_text("#compare(main, curved, confidence=0.9)", &spec).unwrap_err();
+    assert_eq!(p.message, "#compare has no option 'confidence'");
     assert_eq!(p.help.as_deref(), Some("#compare takes no options: #compare(fit, fit)"));
 }
 
 #[test]
 fn linear_binds_each_argument_by_its_kind() {
     let spec = builtin("linear");
-    let text = "#linear(log(Level), Hours + Bay + Hours*Light, weights=Light, data=Data!A1:D13, missing=stop, base(Bay=\"South\"))";
+    let text = "#linear(log(Level), Hours + Bay + Hours*Light, weights=Light, table=Data!A1:D13, gaps=stop, against(Bay=\"South\"))";
     let b = bind_text(text, &spec).unwrap();
     assert!(matches!(&b.positional[0].value, BoundValue::Column(e) if slice(text, e.span) == "log(Level)"));
     match &b.positional[1].value {
@@ -143,31 +144,76 @@ fn linear_binds_each_argument_by_its_kind() {
         other => panic!("terms bound as {other:?}"),
     }
     assert!(matches!(&b.option("weights").unwrap().value, BoundValue::Column(e) if slice(text, e.span) == "Light"));
-    assert!(matches!(&b.option("data").unwrap().value, BoundValue::Range(Place::Range(_))));
-    assert_eq!(b.option("missing").unwrap().value, BoundValue::Choice("stop".into()));
-    match &b.option("base").unwrap().value {
+    assert!(matches!(&b.option("table").unwrap().value, BoundValue::Range(Place::Range(_))));
+    assert_eq!(b.option("gaps").unwrap().value, BoundValue::Choice("stop".into()));
+    match &b.option("against").unwrap().value {
         BoundValue::Group(g) => {
             assert_eq!((g[0].key.as_str(), &g[0].value), ("Bay", &OptionValue::Text("South".into())));
             assert_eq!(slice(text, g[0].key_span), "Bay");
         }
-        other => panic!("base bound as {other:?}"),
+        other => panic!("against bound as {other:?}"),
     }
     // Defaults are values too.
     assert_eq!(b.values.get("errors"), Some(&OptionValue::Text("classic".into())));
-    assert_eq!(b.values.get("level"), Some(&OptionValue::Number(0.95)));
+    assert_eq!(b.values.get("confidence"), Some(&OptionValue::Number(0.95)));
+    assert!(b.notes.is_empty(), "{:?}", b.notes);
+}
+
+#[test]
+fn the_old_option_names_still_bind_to_the_new_with_a_note_each() {
+    let spec = builtin("linear");
+    let text = "#linear(Level, Hours + Bay, data=Data!A1:D13, level=0.9, missing=stop, base(Bay=\"South\"), base(Hours=1))";
+    let b = bind_text(text, &spec).unwrap();
+    assert!(matches!(&b.option("table").unwrap().value, BoundValue::Range(Place::Range(_))));
+    assert_eq!(b.values.get("confidence"), Some(&OptionValue::Number(0.9)));
+    assert_eq!(b.option("gaps").unwrap().value, BoundValue::Choice("stop".into()));
+    assert!(matches!(&b.option("against").unwrap().value, BoundValue::Group(g) if g.len() == 2));
+    assert!(!b.values.contains_key("level") && !b.values.contains_key("base"));
+    let notes: Vec<&str> = b.notes.iter().map(|n| n.message.as_str()).collect();
+    assert_eq!(
+        notes,
+        [
+            "data= is now table=; the old name still works in this version",
+            "level= is now confidence=; the old name still works in this version",
+            "missing= is now gaps=; the old name still works in this version",
+            "base(…) is now against(…); the old name still works in this version",
+        ],
+        "one note per old name, in the order written"
+    );
+    assert!(b.notes.iter().all(|n| n.severity == crate::problems::Severity::Note && n.cell == Some(at())));
+    assert_eq!(carets(&b.notes[1]), carets_under(text, "level"));
+    assert_eq!(carets(&b.notes[3]), carets_under(text, "base"));
+    // The note reaches the resolved request with the rows left out.
+    let r = resolve_text("#linear(Level, Hours, level=0.9)", &spec).unwrap();
+    assert_eq!(r.request.level, 0.9);
+    assert!(r.warnings.iter().any(|w| w.message.starts_with("level= is now confidence=")), "{:?}", r.warnings);
+    // An old name and its new one together are one option given twice.
+    let p = bind_text("#linear(Level, Hours, level=0.9, confidence=0.8)", &spec).unwrap_err();
+    assert_eq!(p.message, "the option confidence is given twice");
+    // A wrong value under the old name is called by the name written.
+    let p = bind_text("#linear(Level, Hours, missing=maybe)", &spec).unwrap_err();
+    assert_eq!(p.message, "missing=maybe is not one of the choices");
+    // #predict: level= is its confidence=; data= is not an option of it, so
+    // still a column's new value.
+    let text = "#predict(main, Light=14, level=0.9, data=3)";
+    let b = bind_text(text, &host("predict")).unwrap();
+    assert_eq!(b.values.get("confidence"), Some(&OptionValue::Number(0.9)));
+    assert_eq!(b.extra.iter().map(|x| x.name.as_str()).collect::<Vec<_>>(), ["Light", "data"]);
+    assert_eq!(b.notes.len(), 1);
+    assert_eq!(b.notes[0].message, "level= is now confidence=; the old name still works in this version");
 }
 
 #[test]
 fn the_host_options_stay_out_of_the_fits_options() {
     let spec = builtin("linear");
-    let r = resolve_text("#linear(Level, Hours + Bay, weights=Light, base(Bay=\"South\"), errors=hc3, name=m, level=0.9)", &spec).unwrap();
+    let r = resolve_text("#linear(Level, Hours + Bay, weights=Light, against(Bay=\"South\"), errors=hc3, name=m, confidence=0.9)", &spec).unwrap();
     let keys: Vec<&str> = r.request.options.keys().map(|k| k.as_str()).collect();
     assert_eq!(keys, ["errors"]);
     assert_eq!(r.request.level, 0.9);
     assert_eq!(r.name.as_deref(), Some("m"));
     assert!(r.request.weights.is_some());
     let names: Vec<&str> = r.request.columns.iter().map(|c| c.name.as_str()).collect();
-    assert_eq!(names, ["Hours", "Bay=East", "Bay=North"], "South is the base level");
+    assert_eq!(names, ["Hours", "Bay: East vs South", "Bay: North vs South"], "South is the reference level");
 }
 
 /// `#tuned(response, terms, limits(…))`: a fit with a group option of its own.
@@ -184,14 +230,14 @@ fn tuned() -> FunctionSpec {
 
 #[test]
 fn a_fits_own_group_reaches_it_with_numbers_and_text() {
-    let r = resolve_text("#tuned(Level, Hours, limits(lo=-1, hi=9.5, how=fast), base(Bay=East))", &tuned()).unwrap();
+    let r = resolve_text("#tuned(Level, Hours, limits(lo=-1, hi=9.5, how=fast), against(Bay=East))", &tuned()).unwrap();
     let want = OptionValue::Group(BTreeMap::from([
         ("lo".to_string(), OptionValue::Number(-1.0)),
         ("hi".to_string(), OptionValue::Number(9.5)),
         ("how".to_string(), OptionValue::Text("fast".into())),
     ]));
     assert_eq!(r.request.options.get("limits"), Some(&want));
-    assert!(!r.request.options.contains_key("base"));
+    assert!(!r.request.options.contains_key("against"));
 }
 
 #[test]
@@ -340,8 +386,9 @@ fn every_term_and_column_keeps_its_place_in_the_request_text() {
     assert_eq!(at("Bay"), Some("Bay"));
     assert_eq!(r.span_of("Bay"), Some(Span::new(text.find("Bay").unwrap(), text.find("Bay").unwrap() + 3)), "the term, not the product");
     // Indicator and product columns point at their term.
-    assert_eq!(at("Bay=North"), Some("Bay"));
+    assert_eq!(at("Bay: North vs East"), Some("Bay"));
     let product = r.request.columns.iter().find(|c| c.name.contains('*')).expect("a product column");
+    assert_eq!(product.name, "Light*(Bay: North vs East)", "an indicator in a product is in parentheses");
     assert_eq!(at(&product.name), Some("Light * Bay"));
     assert_eq!(at("Light*Bay"), Some("Light * Bay"), "white space and case aside");
     assert_eq!(at("SQRT(light)"), Some("sqrt(Light)"));
@@ -354,9 +401,9 @@ fn every_term_and_column_keeps_its_place_in_the_request_text() {
 fn a_fits_complaint_about_a_term_gets_a_caret_under_it() {
     let text = "#linear(Level, Hours + Bay, name=m)";
     let r = resolve_text(text, &builtin("linear")).unwrap();
-    let e = crate::protocol::FitError::new("the term Bay=North has no rows").help("drop it").at_term("Bay=North");
+    let e = crate::protocol::FitError::new("the term Bay: North vs East has no rows").help("drop it").at_term("Bay: North vs East");
     let p = r.fit_problem(&e, &at(), text);
-    assert_eq!(p.message, "the term Bay=North has no rows");
+    assert_eq!(p.message, "the term Bay: North vs East has no rows");
     assert_eq!(p.help.as_deref(), Some("drop it"));
     assert_eq!(carets(&p), carets_under(text, "Bay"));
     // Without a term, or with one the request does not have: no caret.
@@ -382,15 +429,15 @@ fn binding_errors_keep_their_messages_and_carets() {
     let cases = [
         ("#linear(Level, Hours - Light)", "terms are joined by +; a difference must be in parentheses", "Hours - Light"),
         ("#linear(Level, Hours + 2)", "a number is not a term", "2"),
-        ("#linear(Level, Hours, data=2)", "data= takes a sheet name or a range, such as data=Sheet2 or data=Sheet2!A1:F500", "2"),
-        ("#linear(Level, Hours, base=East)", "base is written base(column=value)", "base=East"),
+        ("#linear(Level, Hours, table=2)", "table= takes a sheet name or a range, such as table=Sheet2 or table=Sheet2!A1:F500", "2"),
+        ("#linear(Level, Hours, against=East)", "against is written against(column=value)", "against=East"),
         ("#linear(Level, Hours, start(a=1))", "#linear has no option 'start(…)'", "start"),
-        ("#linear(Level, Hours, level=0.9, Light)", "a positional argument comes after an option", "Light"),
+        ("#linear(Level, Hours, confidence=0.9, Light)", "a positional argument comes after an option", "Light"),
         ("#linear(Level, Hours, Light)", "#linear takes 2 arguments before its options", "Light"),
-        ("#linear(Level, Hours, missing=maybe)", "missing=maybe is not one of the choices", "maybe"),
-        ("#linear(Level, Hours, level=high)", "level takes a number", "high"),
+        ("#linear(Level, Hours, gaps=maybe)", "gaps=maybe is not one of the choices", "maybe"),
+        ("#linear(Level, Hours, confidence=high)", "confidence takes a number", "high"),
         ("#linear(Level, Hours, name=3)", "name takes a word or text in double quotes", "3"),
-        ("#linear(Level, Hours, base(Bay=-Light))", "give a level as a word or in double quotes", "-Light"),
+        ("#linear(Level, Hours, against(Bay=-Light))", "give a level as a word or in double quotes", "-Light"),
         ("#polynomial(Level, Hours, degree=2.5)", "degree takes a whole number", "2.5"),
     ];
     for (text, message, under) in cases {

@@ -18,7 +18,7 @@
 //! request    = ws, "#", ident, "(", [ arg, { ",", arg } ], ")", ws ;
 //! arg        = group | named | expr ;
 //! named      = ( ident | quoted ), "=", expr ;
-//! group      = ident, "(", entry, { ",", entry }, ")" ;      (* base(House="East") *)
+//! group      = ident, "(", entry, { ",", entry }, ")" ;      (* against(House="East") *)
 //! entry      = ( ident | quoted ), "=", expr ;
 //!
 //! expr       = sum ;
@@ -54,7 +54,7 @@
 //!   any order here; the caller checks the order.
 //! - A bare `C2` (no colon, no sheet prefix, no `$`) is a [`ExprKind::Name`]:
 //!   a header may be called `C2`. A sheet prefix, a colon or a `$` marker
-//!   makes a range. `data=Sheet2` is the name `Sheet2`; `data='Bay 2'` is a
+//!   makes a range. `table=Sheet2` is the name `Sheet2`; `table='Bay 2'` is a
 //!   [`ExprKind::SheetName`].
 //! - A cell has 1 to 3 column letters (upper or lower case, at most `XFD`)
 //!   and a row from 1 to 1,048,576. A whole column (`C:C`) has no row; a
@@ -204,7 +204,7 @@ pub enum Arg {
         /// From the key to the end of the value.
         span: Span,
     },
-    /// name(key=value, ...) such as base(House="East") or start(a=40, k=0.2)
+    /// name(key=value, ...) such as against(House="East") or start(a=40, k=0.2)
     Group {
         /// The group's name before `(`.
         name: Ident,
@@ -242,7 +242,7 @@ pub enum ExprKind {
     Name(String),
     /// A double-quoted name or text: `"Outdoor temp"` (`""` inside is one `"`).
     Quoted(String),
-    /// A single-quoted sheet name standing alone, as in `data='Bay 2'`
+    /// A single-quoted sheet name standing alone, as in `table='Bay 2'`
     /// (`''` inside is one `'`).
     SheetName(String),
     /// A number literal (never negative: `-2` is a unary minus on `2`).

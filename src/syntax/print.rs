@@ -191,7 +191,7 @@ impl fmt::Display for Request {
     }
 }
 
-/// An argument as a request writes it: `Light + CO2`, `level=0.99`,
+/// An argument as a request writes it: `Light + CO2`, `confidence=0.99`,
 /// `start(a=40, k=0.2)`.
 impl fmt::Display for Arg {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {

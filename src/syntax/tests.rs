@@ -20,8 +20,8 @@ const SNAPSHOTS: &[(&str, &str)] = &[
         "(linear (name Yield) (+ (+ (name Light) (name CO2)) (name House)) (opt name (name main)))",
     ),
     (
-        "#linear(log(Yield), Light + Light^2, weights=Beds, level=0.99)",
-        "(linear (call log (name Yield)) (+ (name Light) (^ (name Light) 2)) (opt weights (name Beds)) (opt level 0.99))",
+        "#linear(log(Yield), Light + Light^2, weights=Beds, confidence=0.99)",
+        "(linear (call log (name Yield)) (+ (name Light) (^ (name Light) 2)) (opt weights (name Beds)) (opt confidence 0.99))",
     ),
     (
         "#polynomial(Yield, Light, degree=3)",
@@ -63,16 +63,16 @@ const SNAPSHOTS: &[(&str, &str)] = &[
     ("#linear(Yield, C2)", "(linear (name Yield) (name C2))"),
     // The data table.
     (
-        "#linear(Yield, Light, data=Sheet2)",
-        "(linear (name Yield) (name Light) (opt data (name Sheet2)))",
+        "#linear(Yield, Light, table=Sheet2)",
+        "(linear (name Yield) (name Light) (opt table (name Sheet2)))",
     ),
     (
-        "#linear(Yield, Light, data=Sheet2!A1:F500)",
-        "(linear (name Yield) (name Light) (opt data (range Sheet2!A1:F500)))",
+        "#linear(Yield, Light, table=Sheet2!A1:F500)",
+        "(linear (name Yield) (name Light) (opt table (range Sheet2!A1:F500)))",
     ),
     (
-        "#linear(Yield, Light, data='Bay 2')",
-        "(linear (name Yield) (name Light) (opt data (sheet \"Bay 2\")))",
+        "#linear(Yield, Light, table='Bay 2')",
+        "(linear (name Yield) (name Light) (opt table (sheet \"Bay 2\")))",
     ),
     // Model terms.
     ("#linear(Yield, Light*CO2)", "(linear (name Yield) (* (name Light) (name CO2)))"),
@@ -90,16 +90,16 @@ const SNAPSHOTS: &[(&str, &str)] = &[
     ),
     // Shared options.
     (
-        "#linear(Yield, Light + House, base(House=\"East\"))",
-        "(linear (name Yield) (+ (name Light) (name House)) (group base (House (quoted \"East\"))))",
+        "#linear(Yield, Light + House, against(House=\"East\"))",
+        "(linear (name Yield) (+ (name Light) (name House)) (group against (House (quoted \"East\"))))",
     ),
     (
-        "#linear(Yield, Light, intercept=no, errors=hc3, missing=skip)",
-        "(linear (name Yield) (name Light) (opt intercept (name no)) (opt errors (name hc3)) (opt missing (name skip)))",
+        "#linear(Yield, Light, intercept=no, errors=hc3, gaps=skip)",
+        "(linear (name Yield) (name Light) (opt intercept (name no)) (opt errors (name hc3)) (opt gaps (name skip)))",
     ),
     (
-        "#linear(Yield, Light, intercept=yes, errors=classic, missing=stop)",
-        "(linear (name Yield) (name Light) (opt intercept (name yes)) (opt errors (name classic)) (opt missing (name stop)))",
+        "#linear(Yield, Light, intercept=yes, errors=classic, gaps=stop)",
+        "(linear (name Yield) (name Light) (opt intercept (name yes)) (opt errors (name classic)) (opt gaps (name stop)))",
     ),
     (
         "#robust(Yield, Light + CO2, method=huber)",
@@ -108,8 +108,8 @@ const SNAPSHOTS: &[(&str, &str)] = &[
     // Quoted keys, groups with quoted keys, negative values.
     ("#predict(main, \"Outdoor temp\"=14)", "(predict (name main) (opt \"Outdoor temp\" 14))"),
     (
-        "#linear(Yield, \"Bay side\", base(\"Bay side\"=\"West\"))",
-        "(linear (name Yield) (quoted \"Bay side\") (group base (\"Bay side\" (quoted \"West\"))))",
+        "#linear(Yield, \"Bay side\", against(\"Bay side\"=\"West\"))",
+        "(linear (name Yield) (quoted \"Bay side\") (group against (\"Bay side\" (quoted \"West\"))))",
     ),
     ("#predict(main, Light=-2)", "(predict (name main) (opt Light (neg 2)))"),
     // Order is the caller's business; empty lists; case; spacing; Unicode.
@@ -184,11 +184,11 @@ fn display_is_readable() {
         r.to_string(),
         "#nonlinear(Moisture, a*exp(-k*Hours) + c, start(a=40, k=0.2))"
     );
-    let r = parse_request("#linear('Bay 2'!$C$2:$C$9, \"Outdoor temp\"=1, data='Bay 2', x=$C$7)")
+    let r = parse_request("#linear('Bay 2'!$C$2:$C$9, \"Outdoor temp\"=1, table='Bay 2', x=$C$7)")
         .expect("parses");
     assert_eq!(
         r.to_string(),
-        "#linear('Bay 2'!C2:C9, \"Outdoor temp\"=1, data='Bay 2', x=C7:C7)"
+        "#linear('Bay 2'!C2:C9, \"Outdoor temp\"=1, table='Bay 2', x=C7:C7)"
     );
 }
 
@@ -411,8 +411,8 @@ fn error_unclosed_quote() {
         "a closing `\"` (write `\"\"` for one `\"` inside the name)"
     );
 
-    let e = err_of("#linear(Yield, data='Bay 2)");
-    assert_eq!(e.span, Span::new(20, 21));
+    let e = err_of("#linear(Yield, table='Bay 2)");
+    assert_eq!(e.span, Span::new(21, 22));
     assert!(e.message.starts_with("unclosed quote"), "{}", e.message);
 }
 
@@ -525,7 +525,7 @@ fn error_other_tokens() {
     assert!(e.expected.starts_with("`=` after `b`"), "{}", e.expected);
     let e = err_of("#f(log(a b))");
     assert_eq!(e.expected, "`,` or `)` to close `log(`");
-    let e = err_of("#f(level=)");
+    let e = err_of("#f(confidence=)");
     assert_eq!(
         e.expected,
         "a column name, number, range, `-` or `(` after `=`"
