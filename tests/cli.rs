@@ -250,6 +250,9 @@ fn formulas_without_stored_results_are_explained() {
 ";
         assert!(err.starts_with(want), "{cmd}: the warning comes first:
 {err}");
+        // The request that fails says why at its own cell too.
+        assert!(err.contains("12 with a formula that has no stored result (first Data!C2)"), "{cmd}: {err}");
+        assert!(err.contains("fix: some cells are formulas saved without their results; open the file in a spreadsheet application and save it again"), "{cmd}: {err}");
     }
 }
 

@@ -114,7 +114,7 @@ pub(super) fn usable_rows<'t>(
     }
     let keep: Vec<usize> = (0..n).filter(|&i| why[i] == Why::Ok).collect();
     let mut left = LeftOut::default();
-    for w in [Why::Blank, Why::Text, Why::ErrorValue, Why::Undefined, Why::ZeroWeight] {
+    for w in [Why::Blank, Why::Uncomputed, Why::Text, Why::ErrorValue, Why::Undefined, Why::ZeroWeight] {
         let k = why.iter().filter(|x| **x == w).count();
         if k > 0 {
             let first = first_bad.get(&w).cloned().or_else(|| if w == Why::Blank { cat_blank.clone() } else { None });
@@ -193,6 +193,9 @@ pub(super) fn model_columns(ctx: &Ctx, terms: &[Term], keep: &[usize], bases: &B
     Ok(columns)
 }
 
+/// What fixes a workbook whose formulas were saved without their results.
+pub(super) const UNCOMPUTED_FIX: &str = "open the file in a spreadsheet application and save it again, which stores the results";
+
 /// Why a text column has no base level.
 enum NoBase {
     /// `against(...)` names a word that is not one of its levels.
@@ -232,7 +235,13 @@ fn indicator_columns(ctx: &Ctx, c: &Cat, keep: &[usize], bases: &BTreeMap<String
                 .err(span, format!("'{b}' is not a level of {} in the rows used", c.name))
                 .help(format!("the levels are {}", levels.join(", "))))
         }
-        Err(NoBase::NoLevels) => return Err(ctx.err(span, format!("the text column {} has no values in the rows used", c.name))),
+        Err(NoBase::NoLevels) => {
+            let e = ctx.err(span, format!("the text column {} has no values in the rows used", c.name));
+            return Err(match &c.uncomputed {
+                Some(at) => e.help(format!("its cells are formulas saved without their results (first {at}), as some programs save files; {UNCOMPUTED_FIX}")),
+                None => e,
+            });
+        }
     };
     // Checked before any column is built: a text column of unique labels
     // (an id) would otherwise cost levels × rows numbers of memory.

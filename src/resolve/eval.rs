@@ -21,6 +21,7 @@ use std::collections::BTreeMap;
 pub(super) enum Why {
     Ok = 0,
     Blank,
+    Uncomputed,
     Text,
     ErrorValue,
     Undefined,
@@ -28,9 +29,10 @@ pub(super) enum Why {
 }
 
 /// The words of each [`Why`] in a report, indexed by its number.
-pub(super) const WHY_WORDS: [&str; 6] = [
+pub(super) const WHY_WORDS: [&str; 7] = [
     "",
     "with a blank cell",
+    "with a formula that has no stored result",
     "with text in a numeric column",
     "with an error value",
     "where a transform is undefined (such as log of a value ≤ 0)",
@@ -77,6 +79,9 @@ pub(super) struct Cat {
     pub levels: Vec<Option<String>>,
     pub sheet: String,
     pub col: u32,
+    /// The first cell in the rows that is a formula saved without its
+    /// result, if any.
+    pub uncomputed: Option<CellAddress>,
 }
 
 /// What an expression evaluates to before missing rows are dropped.
@@ -116,12 +121,16 @@ pub(super) fn read_column(grid: &Grid, col: u32, rows: &[u32], name: &str) -> Fa
                 _ => None,
             })
             .collect();
-        return Factor::Cat(Cat { name: name.to_string(), levels, sheet: grid.name.clone(), col });
+        let uncomputed = rows.iter().find(|&&r| grid.is_uncomputed(r, col)).map(|&r| CellAddress::new(grid.name.clone(), r, col));
+        return Factor::Cat(Cat { name: name.to_string(), levels, sheet: grid.name.clone(), col, uncomputed });
     }
     let mut num = Num { values: Vec::with_capacity(rows.len()), why: Vec::with_capacity(rows.len()), first_bad: BTreeMap::new(), power: None };
     for &r in rows {
         let v = grid.value(r, col);
         let (x, why) = match v {
+            // A formula saved without its result (by a program that does
+            // not compute formulas) reads as blank: say which it is.
+            v if v.is_blank() && grid.is_uncomputed(r, col) => (f64::NAN, Why::Uncomputed),
             v if v.is_blank() => (f64::NAN, Why::Blank),
             Value::Text(_) => (f64::NAN, Why::Text),
             Value::Error(_) => (f64::NAN, Why::ErrorValue),

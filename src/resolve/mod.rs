@@ -407,7 +407,11 @@ pub fn resolve(
         let lost = left_out.describe().map(|d| format!(" ({d})")).unwrap_or_default();
         return Err(ctx
             .err(req.span, format!("{} rows are usable{lost}, but the model has {p} parameters; least squares needs more rows than parameters", keep.len()))
-            .help("add data rows or use fewer terms"));
+            .help(if left_out.reasons.iter().any(|r| r.0 == eval::WHY_WORDS[eval::Why::Uncomputed as usize]) {
+                format!("some cells are formulas saved without their results; {}", design::UNCOMPUTED_FIX)
+            } else {
+                "add data rows or use fewer terms".to_string()
+            }));
     }
     let mut warnings = bound.notes.clone();
     if let Some(d) = left_out.describe() {
