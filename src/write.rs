@@ -14,8 +14,8 @@
 //! writing: it never costs the rest of the workbook.
 
 use crate::cells::{quote_sheet_name, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
-use crate::layout::{output_sheet_names, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Part, Refused, Sheet, SheetAt, Style};
-use rust_xlsxwriter::{Chart, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
+use crate::layout::{format_code, output_sheet_names, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Part, Refused, Sheet, SheetAt, Style};
+use rust_xlsxwriter::{Chart, ChartAxisCrossing, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
 use std::collections::{HashMap, HashSet};
 use std::fmt;
 use std::path::{Path, PathBuf};
@@ -67,52 +67,27 @@ struct Formats {
     cache: HashMap<(Style, String), Format>,
 }
 
-/// A number format showing `x` to six significant digits; the cell keeps
-/// every digit. Fixed notation between 0.0001 and 10⁷, scientific outside.
-fn significant_code(x: f64) -> String {
-    if x == 0.0 || !x.is_finite() {
-        return "0".into();
-    }
-    let mag = x.abs().log10().floor() as i32;
-    if (-4..7).contains(&mag) {
-        let decimals = (5 - mag).clamp(0, 10) as usize;
-        if decimals == 0 {
-            "0".into()
-        } else {
-            format!("0.{}", "0".repeat(decimals))
-        }
-    } else {
-        "0.00000E+00".into()
-    }
-}
-
 impl Formats {
     fn new() -> Self {
         Formats { cache: HashMap::new() }
     }
 
-    fn get(&mut self, style: Style, value: Option<f64>) -> &Format {
-        let code = match (style, value) {
-            (Style::Number, Some(x)) => significant_code(x),
-            (Style::PValue, Some(x)) if x < 1e-4 => "0.00E+00".into(),
-            (Style::PValue, _) => "0.0000".into(),
-            (Style::Integer, _) => "0".into(),
-            (Style::Fixed(d), _) => if d == 0 { "0".into() } else { format!("0.{}", "0".repeat(usize::from(d))) },
-            (Style::Percent, _) => "0%".into(),
-            (Style::Date, _) => "yyyy-mm-dd".into(),
-            (Style::DateTime, _) => "yyyy-mm-dd hh:mm:ss".into(),
-            (Style::Time, _) => "[h]:mm:ss".into(),
-            _ => String::new(),
-        };
+    /// The format of a cell of this style and content (its number format
+    /// chosen by [`format_code`]).
+    fn get(&mut self, style: Style, content: &Content) -> &Format {
+        let code = format_code(style, content);
         self.cache.entry((style, code.clone())).or_insert_with(|| {
-            let mut f = Format::new();
+            // Top-aligned, so that a row made tall by wrapped text reads
+            // from its top line.
+            let mut f = Format::new().set_align(rust_xlsxwriter::FormatAlign::Top);
             if !code.is_empty() {
                 f = f.set_num_format(&code);
             }
             match style {
                 Style::Header => f.set_bold().set_background_color(0xDDE7F0).set_border_bottom(FormatBorder::Thin),
+                Style::Label => f.set_bold().set_background_color(0xDDE7F0).set_border_bottom(FormatBorder::Thin).set_text_wrap(),
                 Style::Title => f.set_bold().set_font_size(13),
-                Style::Wrap => f.set_text_wrap().set_align(rust_xlsxwriter::FormatAlign::Top),
+                Style::Wrap => f.set_text_wrap(),
                 Style::Good => f.set_bold(),
                 Style::Warning => f.set_font_color(0x9C5700),
                 Style::Error => f.set_font_color(0x9C0006).set_bold(),
@@ -170,10 +145,6 @@ fn xerr(path: &Path) -> impl Fn(XlsxError) -> WriteError + '_ {
 #[allow(clippy::too_many_arguments)]
 fn put(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: SheetAt, row: u32, col: u16, cell: &OutCell, path: &Path) -> Result<(), WriteError> {
     let e = xerr(path);
-    let num = match cell.content {
-        Content::Number(x) => Some(x),
-        _ => None,
-    };
     let link = cell.link.as_ref().filter(|t| parts.accept(at, Part::Link(row, u32::from(col)), link_fits(t, &parts.names)));
     if let Some(target) = link {
         let text = match &cell.content {
@@ -181,16 +152,16 @@ fn put(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: SheetAt, row
             Content::Number(x) => format!("{x}"),
             _ => String::new(),
         };
-        let f = fm.get(cell.style, num).clone();
+        let f = fm.get(cell.style, &cell.content).clone();
         ws.write_url_with_format(row, col, Url::new(format!("internal:{target}")).set_text(text), &f).map_err(&e)?;
     } else if let Content::Formula(text, cached) = &cell.content {
         if parts.accept(at, Part::Cell(row, u32::from(col)), formula_fits(text)) {
-            write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
+            write_content(ws, fm, row, col, &cell.content, Some(cell.style), path)?;
         } else {
-            write_content(ws, fm, row, col, &cached_content(cached), cell.style, path)?;
+            write_content(ws, fm, row, col, &cached_content(cached), Some(cell.style), path)?;
         }
     } else {
-        write_content(ws, fm, row, col, &cell.content, cell.style, path)?;
+        write_content(ws, fm, row, col, &cell.content, Some(cell.style), path)?;
     }
     if let Some(n) = &cell.note {
         ws.insert_note(row, col, &Note::new(clip_text(n, MAX_NOTE_TEXT)).add_author_prefix(false)).map_err(&e)?;
@@ -213,43 +184,43 @@ fn error_formula(err: ErrorValue) -> Formula {
     Formula::new(format!("={}", err.as_str())).set_result(err.as_str())
 }
 
-fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, content: &Content, style: Style, path: &Path) -> Result<(), WriteError> {
+/// Writes a content: a model cell in its style's format (`Some(style)`),
+/// a source cell's own value (`None`) without one, but a date in its
+/// date format.
+fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, content: &Content, style: Option<Style>, path: &Path) -> Result<(), WriteError> {
     let e = xerr(path);
-    match content {
-        Content::Blank => {
-            if style != Style::Plain {
-                let f = fm.get(style, None).clone();
+    let f: Option<Format> = match (style, content) {
+        (Some(s), _) => Some(fm.get(s, content).clone()),
+        (None, Content::DateTime(_, kind)) => Some(fm.get(date_style(*kind), content).clone()),
+        (None, _) => None,
+    };
+    match (content, f) {
+        (Content::Blank, Some(f)) => {
+            if style != Some(Style::Plain) {
                 ws.write_blank(row, col, &f).map_err(&e)?;
             }
         }
-        Content::Number(x) => {
-            if style == Style::Plain {
-                ws.write_number(row, col, *x).map_err(&e)?;
-            } else {
-                let f = fm.get(style, Some(*x)).clone();
-                ws.write_number_with_format(row, col, *x, &f).map_err(&e)?;
-            }
-        }
-        Content::Text(t) => {
-            let t = clip_text(t, MAX_CELL_TEXT);
-            if style == Style::Plain {
-                ws.write_string(row, col, t).map_err(&e)?;
-            } else {
-                let f = fm.get(style, None).clone();
-                ws.write_string_with_format(row, col, t, &f).map_err(&e)?;
-            }
-        }
-        Content::Bool(b) => {
-            ws.write_boolean(row, col, *b).map_err(&e)?;
-        }
-        Content::DateTime(x, kind) => {
-            let f = fm.get(if style == Style::Plain { date_style(*kind) } else { style }, None).clone();
+        (Content::Blank, None) => {}
+        (Content::Number(x) | Content::DateTime(x, _), Some(f)) => {
             ws.write_number_with_format(row, col, *x, &f).map_err(&e)?;
         }
-        Content::Error(err) => {
+        (Content::Number(x) | Content::DateTime(x, _), None) => {
+            ws.write_number(row, col, *x).map_err(&e)?;
+        }
+        (Content::Text(t), f) => {
+            let t = clip_text(t, MAX_CELL_TEXT);
+            match f {
+                Some(f) => ws.write_string_with_format(row, col, t, &f).map_err(&e)?,
+                None => ws.write_string(row, col, t).map_err(&e)?,
+            };
+        }
+        (Content::Bool(b), _) => {
+            ws.write_boolean(row, col, *b).map_err(&e)?;
+        }
+        (Content::Error(err), _) => {
             ws.write_formula(row, col, error_formula(*err)).map_err(&e)?;
         }
-        Content::Formula(text, cached) => {
+        (Content::Formula(text, cached), f) => {
             let result = match cached {
                 Cached::Empty => String::new(),
                 Cached::Number(x) => format!("{x}"),
@@ -258,15 +229,10 @@ fn write_content(ws: &mut Worksheet, fm: &mut Formats, row: u32, col: u16, conte
                 Cached::Error(err) => err.as_str().into(),
             };
             let formula = Formula::new(format!("={text}")).set_result(result);
-            match cached {
-                Cached::Number(x) if style != Style::Plain => {
-                    let f = fm.get(style, Some(*x)).clone();
-                    ws.write_formula_with_format(row, col, formula, &f).map_err(&e)?;
-                }
-                _ => {
-                    ws.write_formula(row, col, formula).map_err(&e)?;
-                }
-            }
+            match f {
+                Some(f) => ws.write_formula_with_format(row, col, formula, &f).map_err(&e)?,
+                None => ws.write_formula(row, col, formula).map_err(&e)?,
+            };
         }
     }
     Ok(())
@@ -329,7 +295,7 @@ fn write_source(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: She
                         continue;
                     }
                     if let Some(content) = source_content(grid, r, c, keep_formulas) {
-                        write_content(ws, fm, r, c as u16, &content, Style::Plain, path)?;
+                        write_content(ws, fm, r, c as u16, &content, None, path)?;
                     }
                 }
             }
@@ -350,7 +316,7 @@ fn write_source(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: She
             if *i < b.rows.len() && b.rows[*i] == r {
                 let x = b.values[*i];
                 if x.is_finite() {
-                    let f = fm.get(Style::Number, Some(x)).clone();
+                    let f = fm.get(Style::Number, &Content::Number(x)).clone();
                     ws.write_number_with_format(r, b.col as u16, x, &f).map_err(&e)?;
                 }
             }
@@ -364,12 +330,16 @@ fn write_result(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: She
     for (c, w) in &sheet.widths {
         ws.set_column_width(*c as u16, *w).map_err(&e)?;
     }
+    for (r, h) in &sheet.heights {
+        ws.set_row_height(*r, *h).map_err(&e)?;
+    }
     for ((r, c), cell) in &sheet.cells {
         put(ws, fm, parts, at, *r, *c as u16, cell, path)?;
     }
     if let Some((r, c)) = sheet.freeze {
         ws.set_freeze_panes(r, c as u16).map_err(&e)?;
     }
+    print_setup(ws, &sheet.print).map_err(&e)?;
     if let Some(f) = sheet.filter {
         ws.autofilter(f.first_row, f.first_col as u16, f.last_row, f.last_col as u16).map_err(&e)?;
     }
@@ -386,6 +356,28 @@ fn write_result(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: She
             let inserted = ws.insert_chart(spec.anchor.0, spec.anchor.1 as u16, &chart).map(|_| ()).map_err(|x| x.to_string());
             parts.accept(at, part, inserted);
         }
+    }
+    Ok(())
+}
+
+/// The sheet's print setup: landscape, fitted to the page width (as many
+/// pages down as needed), rows and columns repeated on every page, the
+/// printed area.
+fn print_setup(ws: &mut Worksheet, p: &crate::layout::PrintSetup) -> Result<(), XlsxError> {
+    if p.landscape {
+        ws.set_landscape();
+    }
+    if p.fit_width {
+        ws.set_print_fit_to_pages(1, 0);
+    }
+    if let Some((a, b)) = p.repeat_rows {
+        ws.set_repeat_rows(a, b)?;
+    }
+    if let Some((a, b)) = p.repeat_cols {
+        ws.set_repeat_columns(a as u16, b as u16)?;
+    }
+    if let Some(a) = &p.area {
+        ws.set_print_area(a.first_row, a.first_col as u16, a.last_row, a.last_col as u16)?;
     }
     Ok(())
 }
@@ -435,8 +427,11 @@ fn chart_for(spec: &ChartSpec, names: &HashSet<String>) -> Result<Chart, String>
         }
     }
     chart.title().set_name(&chart_text(&spec.title));
-    chart.x_axis().set_name(&chart_text(&spec.x_label));
-    chart.y_axis().set_name(&chart_text(&spec.y_label));
+    // Each axis crosses the other at its minimum, so the axes frame the
+    // plot instead of crossing mid-plot at zero (the residual chart draws
+    // its zero line as a series).
+    chart.x_axis().set_name(&chart_text(&spec.x_label)).set_crossing(ChartAxisCrossing::Min);
+    chart.y_axis().set_name(&chart_text(&spec.y_label)).set_crossing(ChartAxisCrossing::Min);
     chart.set_width(500).set_height(340);
     chart.validate().map_err(|e| e.to_string())?;
     Ok(chart)
@@ -692,15 +687,6 @@ mod tests {
         let e = write_book(&Workbook { sheets: Vec::new() }, &Book::default(), &out, &opts).expect_err("the folder is missing");
         assert!(matches!(&e, WriteError::Folder { dir: d, .. } if *d == dir), "{e:?}");
         assert_eq!(e.to_string(), format!("could not write in the folder {}", dir.display()));
-    }
-
-    #[test]
-    fn six_significant_digits() {
-        assert_eq!(significant_code(3.25), "0.00000");
-        assert_eq!(significant_code(-1234.5678), "0.00");
-        assert_eq!(significant_code(0.000123456), "0.000000000");
-        assert_eq!(significant_code(1.0e-9), "0.00000E+00");
-        assert_eq!(significant_code(123456789.0), "0.00000E+00");
     }
 
     #[test]

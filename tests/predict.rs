@@ -316,8 +316,15 @@ fn charts_read_the_cells_of_their_fits() {
     for (a, b) in got.iter().zip(&observed) {
         assert!((a - b).abs() < 1e-9, "observed {a} vs data {b}"); // fitted + residual rebuilds the data (common practice)
     }
+    // The residual chart's zero line runs at 0 from the smallest fitted value to the largest.
+    let (_, ranges) = &charts[1];
+    let (hz, zx) = column(&ranges[2]);
+    let (_, zy) = column(&ranges[3]);
+    assert_eq!(hz, "Zero line: fitted");
+    assert_eq!(zy, vec![0.0, 0.0]);
+    assert_eq!(zx, vec![xs.iter().copied().fold(f64::INFINITY, f64::min), xs.iter().copied().fold(f64::NEG_INFINITY, f64::max)]);
     let (titles, ranges) = &charts[2];
-    assert_eq!(titles[0], "Normal quantile plot of standardized residuals");
+    assert_eq!(titles[0], "Normal quantile plot of the internally studentized residuals");
     let (hq, q) = column(&ranges[0]);
     let (_, r) = column(&ranges[1]);
     assert_eq!(hq, "Normal quantile");

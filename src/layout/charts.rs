@@ -24,7 +24,10 @@ pub fn chart_subset(n: usize) -> Vec<usize> {
 }
 
 /// Width of one fit's chart data table on the Charts sheet, plus a gap.
-const DATA_COLS: u32 = 7;
+const DATA_COLS: u32 = 9;
+/// Columns the charts take (three charts of eight default columns), the
+/// printed part of the sheet.
+const CHART_COLS: u32 = 24;
 /// First column of the chart data tables (right of the charts).
 const DATA_COL0: u32 = 26;
 /// Rows per fit's block of charts.
@@ -32,7 +35,7 @@ const BLOCK_ROWS: u32 = 19;
 
 /// The Charts sheet: per fit, the data with the fitted line (one numeric
 /// input) or observed against fitted, residuals against fitted, and a
-/// normal quantile plot of the standardized residuals; the cells they read
+/// normal quantile plot of the internally studentized residuals; the cells they read
 /// are tables at the right of the sheet. `None` when no fit has per-row
 /// results.
 pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
@@ -63,7 +66,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
 
         let c0 = DATA_COL0 + block * DATA_COLS;
         s.put(0, c0, OutCell::text(format!("Chart data: {}", r.name), Style::Title));
-        let heads = [x_name.as_str(), "Observed", "Fitted", "Residual", "Normal quantile", "Standardized residual (sorted)"];
+        let heads = [x_name.as_str(), "Observed", "Fitted", "Residual", "Normal quantile", "Internally studentized residual (sorted)", "Zero line: fitted", "Zero line: residual"];
         for (j, h) in heads.iter().enumerate() {
             s.put(1, c0 + j as u32, OutCell::text(*h, Style::Header));
             s.widths.insert(c0 + j as u32, 14.0);
@@ -78,6 +81,13 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
         for (k, &i) in pick_q.iter().enumerate() {
             s.put(2 + k as u32, c0 + 4, OutCell::number(qs[i], Style::Number));
             s.put(2 + k as u32, c0 + 5, OutCell::number(sr[i], Style::Number));
+        }
+        // The zero line of the residual chart: from the smallest fitted
+        // value to the largest, at 0.
+        let (lo, hi) = fitted.iter().filter(|v| v.is_finite()).fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+        for (k, x) in [lo, hi].into_iter().enumerate() {
+            s.put(2 + k as u32, c0 + 6, OutCell::number(x, Style::Number));
+            s.put(2 + k as u32, c0 + 7, OutCell::number(0.0, Style::Number));
         }
         let last = 1 + pick.len() as u32;
         let last_q = 1 + pick_q.len().max(1) as u32;
@@ -109,7 +119,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
                 title: format!("Observed {} against fitted", r.response),
                 x_label: format!("Fitted {}", r.response),
                 y_label: format!("Observed {}", r.response),
-                series: vec![series("Observed", c0 + 2, c0 + 1, last, false), series("Observed = fitted", c0 + 2, c0 + 2, last, true)],
+                series: vec![series("Observed", c0 + 2, c0 + 1, last, false), series("Where observed equals fitted", c0 + 2, c0 + 2, last, true)],
                 owner: Some(r.cell.clone()),
             }
         };
@@ -119,16 +129,16 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
             title: "Residuals against fitted values".into(),
             x_label: format!("Fitted {}", r.response),
             y_label: "Residual (observed − fitted)".into(),
-            series: vec![series("Residual", c0 + 2, c0 + 3, last, false)],
+            series: vec![series("Residual", c0 + 2, c0 + 3, last, false), series("Zero", c0 + 6, c0 + 7, 3, true)],
             owner: Some(r.cell.clone()),
         });
         if !sr.is_empty() {
             s.charts.push(ChartSpec {
                 anchor: (top + 1, 16),
-                title: "Normal quantile plot of standardized residuals".into(),
-                x_label: "Normal quantile (Blom positions)".into(),
-                y_label: "Standardized residual".into(),
-                series: vec![series("Standardized residual", c0 + 4, c0 + 5, last_q, false), series("Normal line", c0 + 4, c0 + 4, last_q, true)],
+                title: "Normal quantile plot of the internally studentized residuals".into(),
+                x_label: "Expected for normal residuals (normal quantile, Blom positions)".into(),
+                y_label: "Internally studentized residual".into(),
+                series: vec![series("Internally studentized residual", c0 + 4, c0 + 5, last_q, false), series("Where normal residuals would lie", c0 + 4, c0 + 4, last_q, true)],
                 owner: Some(r.cell.clone()),
             });
         }
@@ -137,6 +147,7 @@ pub(super) fn sheet(name: &str, reports: &[Report]) -> Option<Sheet> {
     if block == 0 {
         return None;
     }
+    s.print.area = Some(crate::cells::CellRange { first_row: 0, first_col: 0, last_row: block * BLOCK_ROWS, last_col: CHART_COLS - 1 });
     s.put(
         block * BLOCK_ROWS,
         0,
@@ -191,7 +202,7 @@ mod tests {
         let s = sheet("Charts", &[report(45_001)]).unwrap();
         assert_eq!(s.charts.len(), 3);
         for c in &s.charts {
-            for ser in &c.series {
+            for ser in c.series.iter().filter(|ser| ser.name != "Zero") {
                 assert_eq!((ser.first_row, ser.last_row), (2, 2 + 15_001 - 1), "{}", c.title);
                 assert_eq!(ser.sheet, "Charts");
             }
@@ -206,7 +217,13 @@ mod tests {
     #[test]
     fn small_fits_plot_every_row() {
         let s = sheet("Charts", &[report(30)]).unwrap();
-        assert!(s.charts.iter().all(|c| c.series.iter().all(|ser| ser.last_row == 31)));
+        assert!(s.charts.iter().all(|c| c.series.iter().filter(|ser| ser.name != "Zero").all(|ser| ser.last_row == 31)));
+        // The residual chart's zero line runs from the smallest fitted value
+        // (0) to the largest (29) at 0.
+        let zero = &s.charts[1].series[1];
+        assert_eq!((zero.name.as_str(), zero.first_row, zero.last_row, zero.line), ("Zero", 2, 3, true));
+        let at = |r: u32, c: u32| s.cells[&(r, c)].content.clone();
+        assert_eq!([at(2, zero.x_col), at(3, zero.x_col), at(2, zero.y_col), at(3, zero.y_col)], [Content::Number(0.0), Content::Number(29.0), Content::Number(0.0), Content::Number(0.0)]);
         // Observed = fitted + residual, sorted by fitted: row 0 has fitted 0 and residual 0 % 13 − 6 = −6.
         let obs = s.charts[0].series[0].y_col;
         assert_eq!(s.cells[&(2, obs)].content, Content::Number(-6.0));

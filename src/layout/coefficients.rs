@@ -41,7 +41,7 @@ pub(super) fn sheet(coef_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<u32>
         ("VIF", 9.0),
         ("Standardized coefficient", 14.0),
         ("Standard-error method", 12.0),
-        ("Remark", 60.0),
+        ("Remark", 45.0),
     ];
     coef.header(0, &headers);
     let mut first_coef_row: Vec<Option<u32>> = Vec::new();
@@ -71,7 +71,7 @@ pub(super) fn sheet(coef_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<u32>
             if c.estimate.is_none() {
                 coef.put(row, 12, OutCell::text("not estimable (collinear)", Style::Warning));
             } else if let Some(why) = &c.remark {
-                coef.put(row, 12, OutCell::text(why, Style::Plain));
+                coef.put(row, 12, OutCell::text(why, Style::Wrap));
             }
             row += 1;
         }

@@ -31,7 +31,7 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
         s.put(row, 0, OutCell::text("No fit's terms contain another's, so there is no nested F test.", Style::Plain));
         row += 2;
     } else {
-        s.put(row, 0, OutCell::text("Nested fits: does the larger fit explain significantly more? (F test)", Style::Header));
+        s.put(row, 0, OutCell::text("Nested fits: does the larger fit explain significantly more? (F test)", Style::Title));
         row += 1;
         for (j, h) in ["Smaller fit", "Larger fit", "F statistic", "Numerator df", "Denominator df", "p-value"].iter().enumerate() {
             s.put(row, j as u32, OutCell::text(*h, Style::Header));
@@ -48,15 +48,17 @@ fn comparison_table(s: &mut Sheet, mut row: u32, r: &Report, c: &Comparison) -> 
         }
         row += 1;
     }
-    s.put(
-        row,
-        0,
-        OutCell::text(
-            "How to choose: prefer the fit with the lower AIC (or BIC, which penalises extra terms more); a difference below about 2 is slight. For nested fits, a small p-value of F (say below 0.05) says the extra terms help. Prefer the simpler fit when the figures are close, and check its residuals. The F tests here use the classic residual variance even when a fit asked for errors=hc*.",
-            Style::Wrap,
-        ),
-    );
-    row += 2;
+    // One sentence a row: a paragraph would need a column of its own.
+    for line in [
+        "How to choose: prefer the fit with the lower AIC (or BIC, which penalises extra terms more); a difference below about 2 is slight.",
+        "For nested fits, a small p-value of F (say below 0.05) says the extra terms help.",
+        "Prefer the simpler fit when the figures are close, and check its residuals.",
+        "The F tests here use the classic residual variance even when a fit asked for errors=hc*.",
+    ] {
+        s.put(row, 0, OutCell::text(line, Style::Plain));
+        row += 1;
+    }
+    row += 1;
     s.put(row, 0, OutCell::text("Term", Style::Header));
     for (i, f) in c.fits.iter().enumerate() {
         s.put(row, 1 + 2 * i as u32, OutCell::text(format!("{}: estimate", f.name), Style::Header));

@@ -10,7 +10,7 @@ pub(super) fn sheet(names: &SheetNames, reports: &[Report], first_coef_row: &[Op
     let mut fits = Sheet::new(&names.fits);
     fits.header(
         0,
-        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms, or the fits it uses", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 80.0)],
+        &[("Fit", 14.0), ("Function", 10.0), ("Response", 14.0), ("Terms, or the fits it uses", 30.0), ("Request cell", 14.0), ("Rows used", 10.0), ("Rows left out", 13.0), ("Status", 9.0), ("Messages", 60.0)],
     );
     for (i, r) in reports.iter().enumerate() {
         let row = i as u32 + 1;
@@ -41,7 +41,8 @@ pub(super) fn sheet(names: &SheetNames, reports: &[Report], first_coef_row: &[Op
         };
         fits.put(row, 7, OutCell::text(r.status.as_str(), st));
         let notes = r.notes.iter().map(|n| format!("note: {n}"));
-        fits.put(row, 8, OutCell::text(r.messages.iter().cloned().chain(notes).collect::<Vec<_>>().join(" | "), Style::Plain));
+        // One message a line, wrapped in the column.
+        fits.put(row, 8, OutCell::text(r.messages.iter().cloned().chain(notes).collect::<Vec<_>>().join("\n"), Style::Wrap));
     }
     fits.close_table(0, 9);
 

@@ -73,7 +73,9 @@ pub(super) fn sheet(name: &str) -> Sheet {
         ("A fit is only as good as its data", "Check the residual columns and the diagnostics before relying on a result. Decisions about safety, health or money rest with qualified people and the rules that apply where you are."),
     ];
     for (i, (k, v)) in entries.iter().enumerate() {
-        let style = if v.is_empty() { Style::Title } else { Style::Header };
+        // Keys wrap within their column, and the row is as tall as the
+        // longer of key and explanation (readable::fit).
+        let style = if v.is_empty() { Style::Title } else { Style::Label };
         if !k.is_empty() {
             s.put(i as u32, 0, OutCell::text(*k, style));
         }

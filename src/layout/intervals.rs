@@ -5,8 +5,7 @@
 
 use super::coefficients::estimate_style;
 use super::{link_to, list_holds, Cached, Choices, Content, OutCell, Region, Sheet, Style};
-use crate::cells::CellRange;
-use crate::cells::column_letters;
+use crate::cells::{column_letters, CellRange, DateKind, Value, Workbook};
 use crate::predict;
 use crate::protocol::{Link, PredictorForm};
 use crate::recipe::{sheet_formula, InputKind, NewValue};
@@ -14,7 +13,7 @@ use crate::report::{HostOutcome, Prediction, Report};
 
 /// The Intervals sheet and, per report, the link target of its `#predict`
 /// table.
-pub(super) fn sheet(int_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<String>>) {
+pub(super) fn sheet(int_n: &str, book: &Workbook, reports: &[Report]) -> (Sheet, Vec<Option<String>>) {
     let mut ints = Sheet::new(int_n);
     ints.header(0, &[("Fit", 14.0), ("Term", 22.0), ("Level", 8.0), ("Estimate", 14.0), ("Confidence interval: from", 14.0), ("Confidence interval: to", 14.0)]);
     let mut irow = 1u32;
@@ -32,7 +31,7 @@ pub(super) fn sheet(int_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<Strin
         }
     }
     ints.close_table(0, 6);
-    let links = extras(&mut ints, irow, reports);
+    let links = extras(&mut ints, irow, book, reports);
     (ints, links)
 }
 
@@ -104,7 +103,7 @@ fn prediction_table(s: &mut Sheet, mut row: u32, r: &Report, p: &Prediction) -> 
 /// live formulas for the prediction and both intervals, and the
 /// coefficients and covariance matrix they read. Returns the next free row,
 /// or `row` unchanged when the fit cannot predict (no recipe or covariance).
-fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
+fn calculator(s: &mut Sheet, row: u32, book: &Workbook, r: &Report) -> u32 {
     let (Some(o), Some(rec)) = (&r.outcome, &r.recipe) else { return row };
     // The calculator's formulas are those of a predictor linear in its
     // coefficients on the response's scale, with a residual spread and t.
@@ -124,7 +123,13 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
     let r_across = r_th + 1;
     let r_t0 = r_th + 2;
     let r_t1 = r_t0 + p as u32 - 1;
-    let defaults: Vec<NewValue> = (0..rec.inputs.len()).map(|i| rec.default_value(i)).collect();
+    let looks: Vec<Precision> = rec.inputs.iter().map(|inp| precision(book, r, inp)).collect();
+    let defaults: Vec<NewValue> = (0..rec.inputs.len())
+        .map(|i| match rec.default_value(i) {
+            NewValue::Number(x) => NewValue::Number(looks[i].round(x)),
+            v => v,
+        })
+        .collect();
     let cells: Vec<String> = (0..k).map(|i| abs(r_in + i, 1)).collect();
     // The request's columns as formulas over the input cells, then the
     // fit's model row over those.
@@ -152,11 +157,11 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
     for (i, inp) in rec.inputs.iter().enumerate() {
         let rr = r_in + i as u32;
         s.put(rr, 0, OutCell::text(&inp.name, Style::Plain));
-        s.put(rr, 1, value_cell(&defaults[i], Style::Input));
+        s.put(rr, 1, looks[i].cell(&defaults[i], Style::Input));
         match &inp.kind {
             InputKind::Numeric { min, max, .. } => {
-                s.put(rr, 2, OutCell::number(*min, Style::Number));
-                s.put(rr, 3, OutCell::number(*max, Style::Number));
+                s.put(rr, 2, looks[i].cell(&NewValue::Number(*min), looks[i].style()));
+                s.put(rr, 3, looks[i].cell(&NewValue::Number(*max), looks[i].style()));
             }
             InputKind::Levels { levels, base } => {
                 s.put(rr, 2, OutCell::text(format!("levels: {} (reference level {base})", levels.join(", ")), Style::Plain));
@@ -215,6 +220,12 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
         s.put(r_res + 10, 0, OutCell::text("A term without an estimate (collinear) counts as 0.", Style::Warning));
     }
 
+    // Covariance × term values cancel to rounding noise (1e-19, say) at
+    // some inputs: they show to six significant digits of the column's
+    // scale, Σ|cov·x|, so that noise shows as 0 (the cell keeps its value).
+    let scale = (0..p).map(|i| (0..p).map(|j| (cov[i][j] * x[j]).abs()).sum::<f64>()).fold(0.0, f64::max);
+    let u_style = if scale > 0.0 && scale.is_finite() { Style::Fixed((5 - scale.log10().floor() as i32).clamp(0, 15) as u8) } else { Style::General };
+
     // The term table: coefficients, term values, covariance.
     for (c, h) in ["Term", "Coefficient", "Term value", "Covariance × term values"].iter().enumerate() {
         s.put(r_th, c as u32, OutCell::text(*h, Style::Header));
@@ -229,7 +240,7 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
         s.put(rr, bcol, OutCell::number(b[j], Style::Number));
         let (xv, xf) = &xs[j];
         s.put(rr, xcol, formula(xf.clone(), *xv, Style::General));
-        s.put(rr, ucol, formula(format!("SUMPRODUCT({},{})", range(vcol0, rr, vcol1, rr), range(vcol0, r_across, vcol1, r_across)), u[j], Style::General));
+        s.put(rr, ucol, formula(format!("SUMPRODUCT({},{})", range(vcol0, rr, vcol1, rr), range(vcol0, r_across, vcol1, r_across)), u[j], u_style));
         for (m, v) in cov[j].iter().enumerate() {
             s.put(rr, vcol0 + m as u32, OutCell::number(*v, Style::Number));
         }
@@ -238,9 +249,79 @@ fn calculator(s: &mut Sheet, row: u32, r: &Report) -> u32 {
     r_t1 + 3
 }
 
+/// How an input column's values look in the data: the most decimals any
+/// value used has (its shortest exact form; `None` beyond ten) and the kind
+/// of date when they are dates or times. Read from the source column under
+/// the input's header; without one, from the smallest and largest value.
+struct Precision {
+    decimals: Option<u8>,
+    date: Option<DateKind>,
+}
+
+/// The decimals of `x` in its shortest exact form, `None` beyond ten.
+fn decimals_of(x: f64) -> Option<u8> {
+    let t = format!("{x}");
+    let d = t.split_once('.').map(|(_, f)| f.len()).unwrap_or(0);
+    (d <= 10).then_some(d as u8)
+}
+
+fn precision(book: &Workbook, r: &Report, inp: &crate::recipe::Input) -> Precision {
+    let most = |xs: &mut dyn Iterator<Item = f64>| xs.map(decimals_of).try_fold(0u8, |a, d| d.map(|d| a.max(d)));
+    let column = r.place.as_ref().and_then(|place| {
+        let grid = book.sheet(&place.sheet)?;
+        let h = place.header_row?;
+        let key = inp.name.trim().to_lowercase();
+        let col = (0..=place.last_col).find(|&c| matches!(grid.value(h, c), Value::Text(t) if t.trim().to_lowercase() == key))?;
+        Some((grid, col, &place.rows))
+    });
+    if let Some((grid, col, rows)) = column {
+        let mut date = None;
+        let mut values = rows.iter().filter_map(|&row| match grid.value(row, col) {
+            Value::Number(x) => Some(x),
+            Value::DateTime(x, k) => {
+                date = Some(k);
+                Some(x)
+            }
+            _ => None,
+        });
+        let decimals = most(&mut values);
+        return Precision { decimals, date };
+    }
+    match &inp.kind {
+        InputKind::Numeric { min, max, .. } => Precision { decimals: most(&mut [*min, *max].into_iter()), date: None },
+        InputKind::Levels { .. } => Precision { decimals: None, date: None },
+    }
+}
+
+impl Precision {
+    /// `x` rounded to the data's decimals.
+    fn round(&self, x: f64) -> f64 {
+        match self.decimals {
+            Some(d) if x.is_finite() => format!("{x:.*}", usize::from(d)).parse().unwrap_or(x),
+            _ => x,
+        }
+    }
+
+    /// The style of the data's smallest and largest value.
+    fn style(&self) -> Style {
+        match self.decimals {
+            Some(d) if self.date.is_none() => Style::Fixed(d),
+            _ => Style::Number,
+        }
+    }
+
+    /// A cell of this input's value: a date when the data are dates.
+    fn cell(&self, v: &NewValue, style: Style) -> OutCell {
+        match (v, self.date) {
+            (NewValue::Number(x), Some(kind)) if x.is_finite() => OutCell::new(Content::DateTime(*x, kind), if style == Style::Input { style } else { Style::Plain }),
+            _ => value_cell(v, style),
+        }
+    }
+}
+
 /// Lays out the `#predict` tables and the calculators on the Intervals
 /// sheet from `row`; returns the link target of each request (by index).
-fn extras(s: &mut Sheet, mut row: u32, reports: &[Report]) -> Vec<Option<String>> {
+fn extras(s: &mut Sheet, mut row: u32, book: &Workbook, reports: &[Report]) -> Vec<Option<String>> {
     let mut links = vec![None; reports.len()];
     row += 2;
     for (i, r) in reports.iter().enumerate() {
@@ -250,7 +331,7 @@ fn extras(s: &mut Sheet, mut row: u32, reports: &[Report]) -> Vec<Option<String>
         }
     }
     for r in reports {
-        row = calculator(s, row, r);
+        row = calculator(s, row, book, r);
     }
     links
 }

@@ -9,7 +9,9 @@
 //! (interval table, `#predict` tables, prediction calculators),
 //! `diagnostics.rs`, `comparisons.rs`, `charts.rs`, `guide.rs`, `about.rs`;
 //! `overlays.rs` holds what is added to the source sheets; `parts.rs` the
-//! parts of one request (charts, regions of rows) and leaving one out. This
+//! parts of one request (charts, regions of rows) and leaving one out;
+//! `readable.rs` the number formats, column widths, row heights and print
+//! setup that make every result sheet read well when opened. This
 //! file holds the model, the names sheets are written under, and
 //! [`lay_out`], which calls them in order.
 //!
@@ -27,11 +29,13 @@ mod guide;
 mod intervals;
 mod overlays;
 mod parts;
+mod readable;
 
 pub use charts::{chart_subset, CHART_POINTS};
 pub use intervals::CALCULATOR_MAX_TERMS;
 pub use overlays::outcome_line;
 pub use parts::{list_holds, Part, Refused, Region, SheetAt, LIST_MAX};
+pub use readable::{format_code, line_height, shown_chars, shown_number, wrapped_lines};
 
 use crate::cells::{quote_sheet_name, CellAddress, CellRange, DateKind, ErrorValue, Workbook};
 use crate::report::{Report, RunInfo};
@@ -61,6 +65,8 @@ pub enum Style {
     General,
     /// Text that wraps within the column.
     Wrap,
+    /// A header or row label that wraps within its column: bold, shaded.
+    Label,
     /// A request outcome that went well: bold.
     Good,
     /// A warning: dark orange text.
@@ -163,6 +169,11 @@ pub struct Sheet {
     pub cells: BTreeMap<(u32, u32), OutCell>,
     /// Column widths in characters.
     pub widths: BTreeMap<u32, f64>,
+    /// Row heights in points, for rows whose wrapped text needs more than
+    /// one line (readers do not fit rows to their text on opening).
+    pub heights: BTreeMap<u32, f64>,
+    /// How the sheet prints.
+    pub print: PrintSetup,
     /// Rows and columns frozen above and left of this cell.
     pub freeze: Option<(u32, u32)>,
     /// A filter over a table.
@@ -174,6 +185,21 @@ pub struct Sheet {
     /// Bands of rows that belong to one request (a calculator, a
     /// prediction table), so that one can be left out alone.
     pub regions: Vec<Region>,
+}
+
+/// How a result sheet prints: these workbooks get printed.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct PrintSetup {
+    /// Landscape (for sheets wider than a portrait page).
+    pub landscape: bool,
+    /// Scaled to fit the page width (as many pages down as needed).
+    pub fit_width: bool,
+    /// Rows repeated at the top of every printed page (first, last).
+    pub repeat_rows: Option<(u32, u32)>,
+    /// Columns repeated at the left of every printed page (first, last).
+    pub repeat_cols: Option<(u32, u32)>,
+    /// The part of the sheet printed, when not all of it.
+    pub area: Option<CellRange>,
 }
 
 /// The choices of a drop-down list.
@@ -376,7 +402,7 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     let names = SheetNames::new(book, &source_names);
     // Coefficients first: other sheets link to its rows.
     let (coef, first_coef_row) = coefficients::sheet(&names.coefficients, reports);
-    let (ints, mut host_links) = intervals::sheet(&names.intervals, reports);
+    let (ints, mut host_links) = intervals::sheet(&names.intervals, book, reports);
     let (comparisons, cmp_links) = comparisons::sheet(&names.comparisons, reports);
     for (l, c) in host_links.iter_mut().zip(cmp_links) {
         if l.is_none() {
@@ -393,6 +419,9 @@ pub fn lay_out(book: &Workbook, reports: &[Report], info: &RunInfo) -> Book {
     sheets.extend(comparisons);
     sheets.extend(charts);
     sheets.extend([guide, about]);
+    for s in &mut sheets {
+        readable::fit(s);
+    }
     Book { overlays, source_names, sheets, keep_formulas: true }
 }
 

@@ -104,11 +104,27 @@ fn chart(out: &mut String, ch: &ChartSpec) {
 }
 
 /// The text of one result sheet: its cells, one line each in row-major
-/// order, then widths, freeze, filter, drop-down choices and charts.
+/// order, then widths, row heights, print setup, freeze, filter, drop-down
+/// choices and charts.
 pub fn dump_sheet(s: &Sheet) -> String {
     let mut out = format!("sheet {:?}\n", s.name);
     cells(&mut out, &s.cells);
     widths(&mut out, &s.widths);
+    for (r, h) in &s.heights {
+        let _ = writeln!(out, "height {}  {h:?}", r + 1);
+    }
+    let p = &s.print;
+    let _ = write!(out, "print {}{}", if p.landscape { "landscape" } else { "portrait" }, if p.fit_width { ", fit to page width" } else { "" });
+    if let Some((a, b)) = p.repeat_rows {
+        let _ = write!(out, ", repeat rows {}-{}", a + 1, b + 1);
+    }
+    if let Some((a, b)) = p.repeat_cols {
+        let _ = write!(out, ", repeat columns {}-{}", column_letters(a), column_letters(b));
+    }
+    if let Some(a) = &p.area {
+        let _ = write!(out, ", area {a}");
+    }
+    out.push('\n');
     if let Some((r, c)) = s.freeze {
         let _ = writeln!(out, "freeze {}", CellAddress::new("", r, c).local());
     }
