@@ -44,7 +44,7 @@ def main(inp, out):
     sha = hashlib.sha256(open(inp, "rb").read()).hexdigest()
     assert about["Input SHA-256"] == sha, about
     coef = wb["Coefficients"]
-    assert [c.value for c in coef[1]][:6] == ["Fit", "Term", "Estimate", "Standard error", "t statistic", "p-value"]
+    assert [c.value for c in coef[1]][:9] == ["Fit", "Term", "Estimate", "Standard error", "Level", "Confidence interval: from", "Confidence interval: to", "t statistic", "p-value"]
     assert coef.freeze_panes == "A2" and coef.auto_filter.ref
     n = sum(1 for r in coef.iter_rows(min_row=2) if isinstance(r[2].value, float))
     print(f"independent reader: {len(wb.sheetnames)} sheets, {len(requests)} requests ({errors} deliberate error), {n} coefficients: ok")
