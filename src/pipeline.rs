@@ -683,6 +683,17 @@ mod tests {
     }
 
     #[test]
+    fn every_fit_takes_the_shared_options_under_their_names() {
+        // The options the host applies are spelt the same for every fit.
+        for req in ["#linear(y, x, confidence=0.9, gaps=stop, table=Data!A1:D10, name=l)", "#nonlinear(y, a*x^b, start(a=1, b=1), confidence=0.9, gaps=stop, table=Data!A1:D10, name=n)"] {
+            let s = evaluate_book(&small_book(&[req]), "t.xlsx", &Registry::builtin());
+            let r = &s.reports[0];
+            assert_ne!(r.status, Status::Error, "{req}: {:?}", r.messages);
+            assert_eq!((r.level, r.rows_used), (0.9, 9), "{req}");
+        }
+    }
+
+    #[test]
     fn default_output_sits_beside_the_input() {
         let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
         assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");

@@ -36,7 +36,7 @@ impl Nonlinear {
     pub fn new() -> Self {
         let p = |name: &str, kind: ParamKind, required: bool, default: Option<&str>, help: &str| ParamSpec { required, ..param(name, kind, default, &[], help) };
         let mut options = vec![p("start", ParamKind::Group, true, None, "the parameters with their starting values, such as start(a=40, k=0.2, c=5)")];
-        options.extend(shared_options().into_iter().filter(|o| ["name", "level", "weights", "missing", "data"].contains(&o.name.as_str())));
+        options.extend(shared_options().into_iter().filter(|o| ["name", "confidence", "weights", "gaps", "table"].contains(&o.name.as_str())));
         let default_limit = nls::DEFAULT_LIMIT.to_string();
         options.push(p("limit", ParamKind::Integer, false, Some(&default_limit), "the most iterations (trial steps) before the fit gives up"));
         Nonlinear {
@@ -325,7 +325,7 @@ impl Fit for Nonlinear {
             count("parameters", "Parameters estimated", g, p as f64),
             count("df_resid", "Degrees of freedom, residual (n − p)", g, df),
             stat("ss_resid", "Residual sum of squares", g, rss),
-            stat("rmse", "Residual standard deviation", g, s),
+            stat("residual_standard_error", "Residual standard error", g, s),
         ];
         if with_constant {
             out.statistics.push(stat("r_squared", "R² (against a constant)", g, r2));
@@ -354,10 +354,10 @@ impl Fit for Nonlinear {
         let jb = diag::jarque_bera(&weighted);
         out.statistics.push(stat("jarque_bera", "Jarque–Bera", rc, jb.statistic));
         out.statistics.push(pval("jarque_bera_p_value", "p-value of Jarque–Bera", rc, jb.p_value));
-        out.statistics.push(stat("skewness", "Skewness of residuals", rc, jb.skewness));
-        out.statistics.push(stat("kurtosis", "Kurtosis of residuals", rc, jb.kurtosis));
+        out.statistics.push(stat("skewness", "Skewness of residuals (symmetric = 0)", rc, jb.skewness));
+        out.statistics.push(stat("kurtosis", "Kurtosis of residuals (normal = 3)", rc, jb.kurtosis));
         if let Some((i, v)) = diag::largest(&standardized, true) {
-            out.statistics.push(stat("max_standardized_residual", "Largest standardized residual (by size)", rc, v));
+            out.statistics.push(stat("max_standardized_residual", "Largest internally studentized residual (by size)", rc, v));
             out.statistic_rows.insert("max_standardized_residual".into(), i);
         }
         if let Some((i, v)) = diag::largest(&leverage, false) {
@@ -373,7 +373,7 @@ impl Fit for Nonlinear {
         let mut big: Vec<(usize, f64)> = standardized.iter().copied().enumerate().filter(|(_, v)| v.is_finite() && v.abs() > 3.0).collect();
         big.sort_by(|a, b| b.1.abs().total_cmp(&a.1.abs()));
         for &(i, v) in big.iter().take(3) {
-            out.row_warnings.push(RowWarning { row: i, text: format!("{{row}} lies far from the curve (standardized residual {}); check it", figure(v)) });
+            out.row_warnings.push(RowWarning { row: i, text: format!("{{row}} lies far from the curve (internally studentized residual {}); check it", figure(v)) });
         }
         if p > 0 && cov.aliased.is_empty() {
             // Parameters estimated with no precision at all (interval wider

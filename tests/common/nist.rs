@@ -649,7 +649,7 @@ pub fn nonlinear_through_tool(name: &str, start: usize) -> Option<NonlinearLres>
         estimates: coefs.iter().zip(&d.estimates).map(|(c, b)| lre(c.estimate.unwrap_or(f64::NAN), *b, 11.0)).collect(),
         std_devs: coefs.iter().zip(&sds).map(|(c, b)| lre(c.std_error.unwrap_or(f64::NAN), *b, 11.0)).collect(),
         rss: lre(need("Residual sum of squares"), rss, 11.0),
-        residual_sd: lre(need("Residual standard deviation"), sd, 11.0),
+        residual_sd: lre(need("Residual standard error"), sd, 11.0),
         iterations: need("Iterations (trial steps)"),
     };
     let _ = std::fs::remove_dir_all(&dir);
