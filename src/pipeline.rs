@@ -694,6 +694,24 @@ mod tests {
     }
 
     #[test]
+    fn levels_that_differ_only_in_case_or_spacing_are_one_level_with_a_note() {
+        let mut b = small_book(&["#linear(y, x + g, name=m)", "#predict(m, x=3, g=\"B \")"]);
+        let g = &mut b.sheets[0];
+        g.set_text(2, 3, "A");
+        g.set_text(5, 3, " a  ");
+        g.set_text(4, 3, "B");
+        let s = evaluate_book(&b, "t.xlsx", &Registry::builtin());
+        let terms: Vec<String> = s.reports[0].outcome.as_ref().expect("fitted").coefficients.iter().map(|c| c.term.clone()).collect();
+        // Three levels remain (a, b, c, whatever the spelling): the
+        // intercept, x and two indicator columns.
+        assert_eq!(terms.len(), 4, "{terms:?}");
+        let note = s.reports[0].notes.iter().find(|n| n.contains("are taken as one level")).expect("a note on the merged spellings");
+        assert!(note.contains("“a”") && note.contains("“A”"), "{note}");
+        // #predict matches a level by the same rule.
+        assert_ne!(s.reports[1].status, Status::Error, "{:?}", s.reports[1].messages);
+    }
+
+    #[test]
     fn default_output_sits_beside_the_input() {
         let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
         assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");

@@ -28,6 +28,14 @@ pub enum Op {
     Pow,
 }
 
+/// When two texts of a column are one level: the same once case is
+/// ignored and runs of spaces are one space ("Office", "office ",
+/// "OFFICE"). The one rule for levels everywhere: indicator columns,
+/// `against(...)` and the new values of `#predict`.
+pub fn level_key(s: &str) -> String {
+    s.split_whitespace().collect::<Vec<_>>().join(" ").to_lowercase()
+}
+
 /// A transform of the fit language: the protocol's [`Function`] (one list
 /// of functions for the whole program).
 pub type Func = Function;
@@ -257,7 +265,7 @@ impl Recipe {
         let InputKind::Levels { levels, base } = &self.inputs[i].kind else {
             return Err(format!("{} is a numeric column", self.inputs[i].name));
         };
-        let Some(given) = levels.iter().find(|l| l.eq_ignore_ascii_case(level.trim())) else {
+        let Some(given) = levels.iter().find(|l| level_key(l) == level_key(level)) else {
             return Err(format!("'{}' is not a level of {}; the levels are {}", level, self.inputs[i].name, levels.join(", ")));
         };
         Ok(levels

@@ -211,7 +211,7 @@ fn levels_and_base<'c>(c: &'c Cat, keep: &[usize], bases: &BTreeMap<String, Stri
     let levels: BTreeSet<&str> = keep.iter().filter_map(|&i| c.levels[i].as_deref()).collect();
     let levels: Vec<&str> = levels.into_iter().collect();
     let base = match bases.get(&c.name.to_lowercase()) {
-        Some(b) => levels.iter().find(|l| l.eq_ignore_ascii_case(b.trim())).copied().ok_or_else(|| NoBase::NotALevel(b.clone())),
+        Some(b) => levels.iter().find(|l| crate::recipe::level_key(l) == crate::recipe::level_key(b)).copied().ok_or_else(|| NoBase::NotALevel(b.clone())),
         None => levels.first().copied().ok_or(NoBase::NoLevels),
     };
     (levels, base)

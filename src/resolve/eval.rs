@@ -9,6 +9,7 @@
 
 use super::tables::Frame;
 use super::{typed, Ctx, ExprColumn, Here};
+use crate::recipe::level_key;
 use crate::cells::{CellAddress, Grid, Value};
 use crate::problems::{closest, Problem};
 use crate::protocol::Function;
@@ -82,6 +83,26 @@ pub(super) struct Cat {
     /// The first cell in the rows that is a formula saved without its
     /// result, if any.
     pub uncomputed: Option<CellAddress>,
+    /// Spellings taken as one level (see [`level_key`]): each level as
+    /// used, with the other spellings found for it.
+    pub merged: Vec<(String, Vec<String>)>,
+}
+
+impl Factor {
+    /// A note for every text column of this factor whose levels came in
+    /// several spellings.
+    pub(super) fn merge_notes(&self, out: &mut Vec<String>) {
+        match self {
+            Factor::Cat(c) => {
+                for (level, others) in &c.merged {
+                    let all: Vec<String> = std::iter::once(level).chain(others).map(|s| format!("“{s}”")).collect();
+                    out.push(format!("in {}, {} are taken as one level, {level} (levels that differ only in case or spacing are one level)", c.name, all.join(", ")));
+                }
+            }
+            Factor::Product(p) => p.iter().for_each(|f| f.merge_notes(out)),
+            Factor::Num(..) => {}
+        }
+    }
 }
 
 /// What an expression evaluates to before missing rows are dropped.
@@ -114,15 +135,28 @@ pub(super) fn read_column(grid: &Grid, col: u32, rows: &[u32], name: &str) -> Fa
         }
     }
     if text > 0 && numeric == 0 {
+        // Each level keeps the first spelling met; other spellings of the
+        // same level (by `level_key`) become it and are recorded.
+        let mut first: BTreeMap<String, String> = BTreeMap::new();
+        let mut merged: BTreeMap<String, Vec<String>> = BTreeMap::new();
         let levels = rows
             .iter()
             .map(|&r| match grid.value(r, col) {
-                Value::Text(t) if !t.trim().is_empty() => Some(t.trim().to_string()),
+                Value::Text(t) if !t.trim().is_empty() => {
+                    let t = t.trim();
+                    let key = level_key(t);
+                    let level = first.entry(key.clone()).or_insert_with(|| t.to_string()).clone();
+                    if level != t && !merged.get(&key).is_some_and(|v| v.iter().any(|x| x == t)) {
+                        merged.entry(key).or_default().push(t.to_string());
+                    }
+                    Some(level)
+                }
                 _ => None,
             })
             .collect();
+        let merged = merged.into_iter().map(|(k, others)| (first[&k].clone(), others)).collect();
         let uncomputed = rows.iter().find(|&&r| grid.is_uncomputed(r, col)).map(|&r| CellAddress::new(grid.name.clone(), r, col));
-        return Factor::Cat(Cat { name: name.to_string(), levels, sheet: grid.name.clone(), col, uncomputed });
+        return Factor::Cat(Cat { name: name.to_string(), levels, sheet: grid.name.clone(), col, uncomputed, merged });
     }
     let mut num = Num { values: Vec::with_capacity(rows.len()), why: Vec::with_capacity(rows.len()), first_bad: BTreeMap::new(), power: None };
     for &r in rows {

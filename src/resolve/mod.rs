@@ -414,6 +414,11 @@ pub fn resolve(
             }));
     }
     let mut warnings = bound.notes.clone();
+    let mut merges = Vec::new();
+    for (_, _, f) in inputs.iter().chain(&factors) {
+        f.merge_notes(&mut merges);
+    }
+    warnings.extend(merges.into_iter().map(|m| Problem::note(m).at(cell.clone())));
     if let Some(d) = left_out.describe() {
         // Leaving out unusable rows is what was asked (gaps=skip): a note.
         warnings.push(Problem::note(d).at(cell.clone()));
