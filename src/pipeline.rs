@@ -712,6 +712,22 @@ mod tests {
     }
 
     #[test]
+    fn cells_that_are_not_data_are_said_to_be_so() {
+        let mut b = small_book(&["#linear(\"y\", x, name=q)"]);
+        // A number stored as text in x, and a request below the table in
+        // column A, which a whole-column range must not read as data.
+        b.sheets[0].set_text(3, 0, "3");
+        b.sheets[0].set_text(11, 0, "#linear(Data!B:B, Data!A:A, name=whole)");
+        let s = evaluate_book(&b, "t.xlsx", &Registry::builtin());
+        let q = &s.reports[0];
+        assert_eq!(q.response, "y", "a quoted header is labelled without its quotes");
+        assert!(q.notes.iter().any(|n| n.contains("1 with a number stored as text")), "{:?}", q.notes);
+        let whole = s.reports.iter().find(|r| r.name == "whole").expect("the whole-column request");
+        assert_eq!((whole.rows_used, whole.rows_left_out), (8, 1), "{:?} {:?}", whole.messages, whole.notes);
+        assert!(!whole.notes.iter().any(|n| n.contains("text in a numeric column")), "{:?}", whole.notes);
+    }
+
+    #[test]
     fn default_output_sits_beside_the_input() {
         let out = |p: &str| default_output(Path::new(p)).to_string_lossy().into_owned();
         assert_eq!(out("dir/book.xlsx"), "dir/book.fitted.xlsx");

@@ -93,8 +93,12 @@ pub(super) fn usable_rows<'t>(
             }
         };
         for (i, (row_why, (&w_why, &w_value))) in why.iter().zip(w.why.iter().zip(&w.values)).enumerate() {
-            if *row_why == Why::Ok && matches!(w_why, Why::Text | Why::ErrorValue) {
-                let what = if w_why == Why::Text { "is text, not a number" } else { "is an error value" };
+            if *row_why == Why::Ok && matches!(w_why, Why::Text | Why::NumberAsText | Why::ErrorValue) {
+                let what = match w_why {
+                    Why::Text => "is text, not a number",
+                    Why::NumberAsText => "is a number stored as text (convert it to a number)",
+                    _ => "is an error value",
+                };
                 return Err(ctx
                     .err(w_span, format!("the weight {} {what}", w_cell(i)))
                     .help("weights must be numbers, zero or positive; a zero weight leaves the row out"));
@@ -114,7 +118,7 @@ pub(super) fn usable_rows<'t>(
     }
     let keep: Vec<usize> = (0..n).filter(|&i| why[i] == Why::Ok).collect();
     let mut left = LeftOut::default();
-    for w in [Why::Blank, Why::Uncomputed, Why::Text, Why::ErrorValue, Why::Undefined, Why::ZeroWeight] {
+    for w in [Why::Blank, Why::Uncomputed, Why::Text, Why::NumberAsText, Why::ErrorValue, Why::Undefined, Why::ZeroWeight] {
         let k = why.iter().filter(|x| **x == w).count();
         if k > 0 {
             let first = first_bad.get(&w).cloned().or_else(|| if w == Why::Blank { cat_blank.clone() } else { None });

@@ -24,17 +24,19 @@ pub(super) enum Why {
     Blank,
     Uncomputed,
     Text,
+    NumberAsText,
     ErrorValue,
     Undefined,
     ZeroWeight,
 }
 
 /// The words of each [`Why`] in a report, indexed by its number.
-pub(super) const WHY_WORDS: [&str; 7] = [
+pub(super) const WHY_WORDS: [&str; 8] = [
     "",
     "with a blank cell",
     "with a formula that has no stored result",
     "with text in a numeric column",
+    "with a number stored as text (convert those cells to numbers to use them)",
     "with an error value",
     "where a transform is undefined (such as log of a value ≤ 0)",
     "with zero weight",
@@ -124,6 +126,14 @@ fn value_is_numeric(v: &Value) -> Option<f64> {
 }
 
 /// Reads one sheet column over the given rows as numbers or categories.
+/// Whether a text reads as a number, with a point or a comma as the
+/// decimal mark ("3", "12,5", " -0.25 "): a number stored as text. plumb
+/// does not guess which decimal mark was meant; it says what it saw.
+fn looks_numeric(t: &str) -> bool {
+    let t = t.trim();
+    !t.is_empty() && t.chars().filter(|c| *c == ',' || *c == '.').count() <= 1 && t.replace(',', ".").parse::<f64>().is_ok_and(f64::is_finite)
+}
+
 pub(super) fn read_column(grid: &Grid, col: u32, rows: &[u32], name: &str) -> Factor {
     let (mut numeric, mut text) = (0usize, 0usize);
     for &r in rows {
@@ -166,6 +176,7 @@ pub(super) fn read_column(grid: &Grid, col: u32, rows: &[u32], name: &str) -> Fa
             // not compute formulas) reads as blank: say which it is.
             v if v.is_blank() && grid.is_uncomputed(r, col) => (f64::NAN, Why::Uncomputed),
             v if v.is_blank() => (f64::NAN, Why::Blank),
+            Value::Text(t) if looks_numeric(t) => (f64::NAN, Why::NumberAsText),
             Value::Text(_) => (f64::NAN, Why::Text),
             Value::Error(_) => (f64::NAN, Why::ErrorValue),
             v => match value_is_numeric(&v) {

@@ -230,6 +230,16 @@ fn typed(text: &str, span: Span) -> String {
     text.get(span.start..span.end).unwrap_or("").split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
+/// The label of a term or response in the output: a quoted header alone is
+/// its header (`"Distance km"` is labelled Distance km), anything else is
+/// the text as typed.
+fn label(text: &str, e: &Expr) -> String {
+    match &e.kind {
+        ExprKind::Quoted(n) if !n.trim().is_empty() => n.trim().to_string(),
+        _ => typed(text, e.span),
+    }
+}
+
 /// Splits a model argument at its top-level `+` into terms.
 fn split_terms(e: &Expr, out: &mut Vec<Expr>) {
     match &e.kind {
@@ -382,7 +392,7 @@ pub fn resolve(
     }
     let mut factors = Vec::new();
     for t in term_exprs {
-        factors.push((typed(text, t.span), t.span, ctx.eval(t, &frame)?));
+        factors.push((label(text, t), t.span, ctx.eval(t, &frame)?));
     }
     let weights = match host.weights {
         Some(w) => Some(ctx.numeric(w, &frame)?),
@@ -426,7 +436,7 @@ pub fn resolve(
     let request = FitRequest {
         protocol: PROTOCOL_VERSION,
         function: spec.name.clone(),
-        response: Column { name: typed(text, response_expr.span), term: typed(text, response_expr.span), values: pick(&response.values), power: None },
+        response: Column { name: label(text, response_expr), term: label(text, response_expr), values: pick(&response.values), power: None },
         columns,
         intercept,
         weights: weights.as_ref().map(|w| pick(&w.values)),
@@ -448,7 +458,7 @@ pub fn resolve(
         .expression
         .map(|x| (x.text.clone(), x.expr.span))
         .into_iter()
-        .chain(term_exprs.iter().map(|t| (typed(text, t.span), t.span)))
+        .chain(term_exprs.iter().map(|t| (label(text, t), t.span)))
         .collect();
     let term_at = |term: &str| inputs.iter().chain(&factors).find(|(l, _, _)| l == term).map(|(_, s, _)| *s);
     let column_spans = request
@@ -462,7 +472,7 @@ pub fn resolve(
         recipe,
         request,
         name: host.name,
-        response_label: typed(text, response_expr.span),
+        response_label: label(text, response_expr),
         terms: term_spans.iter().map(|t| t.0.clone()).collect(),
         term_spans,
         column_spans,

@@ -195,7 +195,15 @@ impl Ctx<'_> {
         // Whole columns stop at the last used row of the sheet.
         let cover = range_rows(grid, r);
         let col = cover.first_col;
-        let mut rows: Vec<u32> = (cover.first_row..=cover.last_row).collect();
+        // A request cell in the column (one below the table, say) is never data.
+        let mut rows: Vec<u32> = (cover.first_row..=cover.last_row).filter(|&r| !matches!(grid.value(r, col), Value::Text(t) if crate::syntax::looks_like_request(t))).collect();
+        // A whole column ends at its own last value, not at the sheet's
+        // last used row (which may be a request or another table's).
+        if r.start.row.is_none() || r.end.row.is_none() {
+            while rows.last().is_some_and(|&r| grid.value(r, col).is_blank()) {
+                rows.pop();
+            }
+        }
         let mut header = None;
         if let Some(&r0) = rows.first() {
             if let Value::Text(t) = grid.value(r0, col) {
