@@ -35,6 +35,7 @@ pub(crate) fn param(name: &str, kind: ParamKind, default: Option<&str>, choices:
         default: default.map(Into::into),
         choices: choices.iter().map(|c| c.to_string()).collect(),
         help: help.into(),
+        example: None,
     }
 }
 
@@ -47,7 +48,7 @@ pub fn shared_options() -> Vec<ParamSpec> {
         param("weights", ParamKind::Column, None, &[], "a column of non-negative weights (weighted least squares)"),
         param("missing", ParamKind::Choice, Some("skip"), &["skip", "stop"], "leave out rows with blank or non-numeric cells (and count them), or stop with an error"),
         param("data", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
-        param("base", ParamKind::Group, None, &[], "base level of a categorical column, e.g. base(Bay=\"East\")"),
+        ParamSpec { example: Some("base(Bay=\"East\")".into()), ..param("base", ParamKind::Group, None, &[], "base level of a categorical column, e.g. base(Bay=\"East\")") },
         param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3"], "standard errors: classic (constant variance) or heteroscedasticity-consistent hc0, hc1, hc2, hc3"),
     ]
 }

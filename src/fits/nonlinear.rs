@@ -35,7 +35,10 @@ impl Nonlinear {
     /// The fit with its spec.
     pub fn new() -> Self {
         let p = |name: &str, kind: ParamKind, required: bool, default: Option<&str>, help: &str| ParamSpec { required, ..param(name, kind, default, &[], help) };
-        let mut options = vec![p("start", ParamKind::Group, true, None, "the parameters with their starting values, such as start(a=40, k=0.2, c=5)")];
+        let mut options = vec![ParamSpec {
+            example: Some("start(a=…, k=…)".into()),
+            ..p("start", ParamKind::Group, true, None, "the parameters with their starting values, such as start(a=40, k=0.2, c=5)")
+        }];
         options.extend(shared_options().into_iter().filter(|o| ["name", "level", "weights", "missing", "data"].contains(&o.name.as_str())));
         let default_limit = nls::DEFAULT_LIMIT.to_string();
         options.push(p("limit", ParamKind::Integer, false, Some(&default_limit), "the most iterations (trial steps) before the fit gives up"));

@@ -44,7 +44,7 @@ fn bind_text(text: &str, spec: &FunctionSpec) -> Result<Bound, Problem> {
 }
 
 fn param(name: &str, kind: ParamKind, help: &str) -> ParamSpec {
-    ParamSpec { name: name.into(), kind, required: true, default: None, choices: Vec::new(), help: help.into() }
+    ParamSpec { name: name.into(), kind, required: true, default: None, choices: Vec::new(), help: help.into(), example: None }
 }
 
 fn builtin(name: &str) -> FunctionSpec {
