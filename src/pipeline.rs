@@ -657,7 +657,7 @@ mod tests {
     #[test]
     fn start_values_and_the_model_reach_the_fit() {
         use crate::protocol::{FunctionSpec, ParamKind, ParamSpec};
-        let p = |name: &str, kind: ParamKind, required: bool| ParamSpec { name: name.into(), kind, required, default: None, choices: Vec::new(), help: String::new() };
+        let p = |name: &str, kind: ParamKind, required: bool| ParamSpec { name: name.into(), kind, required, default: None, choices: Vec::new(), help: String::new(), example: None };
         let spec = FunctionSpec {
             name: "echo".into(),
             help: String::new(),

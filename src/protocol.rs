@@ -91,7 +91,9 @@ impl FunctionSpec {
         self.options.iter().find(|o| o.name.eq_ignore_ascii_case(name))
     }
 
-    /// The call pattern, such as `#linear(response, terms, name=…, confidence=0.95)`.
+    /// The call pattern, such as `#linear(response, terms, name=…, confidence=0.95)`;
+    /// a group option by its [`ParamSpec::example`] (`start(a=…, k=…)`,
+    /// `against(Bay="East")`), or `name(key=value, …)` when it has none.
     pub fn signature(&self) -> String {
         let mut parts: Vec<String> = self
             .positional
@@ -104,7 +106,7 @@ impl FunctionSpec {
                 (None, ParamKind::Choice) => o.choices.join("|"),
                 (None, _) => "…".to_string(),
             };
-            parts.push(if o.kind == ParamKind::Group { format!("{}(col=level)", o.name) } else { format!("{}={}", o.name, v) });
+            parts.push(if o.kind == ParamKind::Group { o.example.clone().unwrap_or_else(|| format!("{}(key=value, …)", o.name)) } else { format!("{}={}", o.name, v) });
         }
         format!("#{}({})", self.name, parts.join(", "))
     }
@@ -139,6 +141,11 @@ pub struct ParamSpec {
     pub choices: Vec<String>,
     /// One line of help.
     pub help: String,
+    /// How the option is written, as the signature shows it: for a group,
+    /// such as `start(a=…, k=…)` or `base(Bay="East")`. Optional (older
+    /// manifests have none).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub example: Option<String>,
 }
 
 /// The kinds of value a parameter takes.
@@ -1167,6 +1174,29 @@ mod tests {
         let Message::Outcome { outcome: o, .. } = back else { panic!("an outcome") };
         assert!(o.statistics[1].value.is_nan());
         assert_eq!(o.predictor, outcome().predictor);
+    }
+
+    #[test]
+    fn a_group_option_is_shown_by_its_example() {
+        let group = |example: Option<&str>| ParamSpec {
+            name: "start".into(),
+            kind: ParamKind::Group,
+            required: true,
+            default: None,
+            choices: Vec::new(),
+            help: "starting values".into(),
+            example: example.map(Into::into),
+        };
+        let spec = |o: ParamSpec| FunctionSpec { name: "curve".into(), help: String::new(), positional: Vec::new(), options: vec![o] };
+        assert_eq!(spec(group(Some("start(a=…, k=…)"))).signature(), "#curve(start(a=…, k=…))");
+        assert_eq!(spec(group(None)).signature(), "#curve(start(key=value, …))");
+        // A manifest from before the field reads (no example), and a spec
+        // without one is written without it: the JSON form is unchanged.
+        let old = r#"{"name":"start","kind":"group","required":true,"default":null,"choices":[],"help":"starting values"}"#;
+        assert_eq!(serde_json::from_str::<ParamSpec>(old).unwrap(), group(None));
+        assert_eq!(serde_json::to_string(&group(None)).unwrap(), old);
+        let new = serde_json::to_string(&group(Some("start(a=…)"))).unwrap();
+        assert!(new.ends_with(r#""help":"starting values","example":"start(a=…)"}"#), "{new}");
     }
 
     #[test]

@@ -81,6 +81,10 @@ fn functions_lists_the_vocabulary() {
     for opt in ["confidence=", "intercept=", "weights=", "gaps=", "table=", "against(", "name="] {
         assert!(out.contains(opt), "{opt} missing from {out}");
     }
+    // Group options are shown as they are written.
+    assert!(out.contains("#nonlinear(response, model, start(a=…, k=…), name=…"), "{out}");
+    assert!(out.contains(", against(Bay=\"East\"), "), "{out}");
+    assert!(!out.contains("col=level"), "{out}");
 }
 
 #[test]

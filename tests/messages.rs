@@ -156,3 +156,66 @@ fn powers_of_one_column_draw_no_collinearity_warning() {
     assert!(!r.messages.iter().any(|m| m.contains("nearly collinear")), "{:?}", r.messages);
     assert!(o.notes.iter().any(|n| n.contains("collinear by construction")), "{:?}", o.notes);
 }
+
+
+// #nonlinear's bad input (issue 10), on the same Weekly table. Each message
+// is checked word for word where it matters: the cell, the caret, the fix.
+
+#[test]
+fn nonlinear_parameter_the_model_never_uses() {
+    let m = first_problem("#nonlinear(Yield, a*Light, start(a=1, b=2))");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: the parameter b is not used in the model a*Light\n"), "{m}");
+    assert!(m.contains("    #nonlinear(Yield, a*Light, start(a=1, b=2))\n                                          ^\n"), "{m}");
+    assert!(m.contains("fix: use b in the model, or leave it out of start(…)"), "{m}");
+}
+
+#[test]
+fn nonlinear_name_neither_parameter_nor_column_suggests_the_nearest_header() {
+    let m = first_problem("#nonlinear(Yield, a*Ligth, start(a=1))");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: there is no column headed 'Ligth' in the table Weekly!A1:D21, and no parameter of that name in start(…)\n"), "{m}");
+    assert!(m.contains("    #nonlinear(Yield, a*Ligth, start(a=1))\n                        ^^^^^\n"), "{m}");
+    assert!(m.contains("fix: did you mean Light? The headers are Bay, Light, CO2, Yield; the parameters are a"), "{m}");
+}
+
+#[test]
+fn nonlinear_single_letter_without_a_start_value_is_taken_for_a_parameter() {
+    let m = first_problem("#nonlinear(Yield, a*exp(-k*Light), start(a=1))");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: k has no starting value: it is no header of the table Weekly!A1:D21, so it is taken for a parameter\n"), "{m}");
+    assert!(m.contains("    #nonlinear(Yield, a*exp(-k*Light), start(a=1))\n                             ^\n"), "{m}");
+    assert!(m.contains("fix: add it to the starting values, start(a=…, k=…), or write the column's header"), "{m}");
+}
+
+#[test]
+fn nonlinear_model_undefined_at_the_start_names_the_sheet_row() {
+    // Light is 8 in row 2 of Weekly: log(8 − 10) is not a number.
+    let m = first_problem("#nonlinear(Yield, a*log(Light - b), start(a=1, b=10))");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: the model is not a number at the starting values in row 2 of Weekly\n"), "{m}");
+    assert!(m.contains("fix: check the starting values: a logarithm or square root of a negative number"), "{m}");
+}
+
+#[test]
+fn nonlinear_singular_jacobian_at_the_start_names_the_parameter() {
+    // With a = 0 the model a·b·Light + c does not change with b.
+    let m = first_problem("#nonlinear(Yield, a*b*Light + c, start(a=0, b=1, c=1))");
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: at the starting values the model does not change with b independently of the other parameters, so it cannot be estimated from there\n"), "{m}");
+    assert!(m.contains("    #nonlinear(Yield, a*b*Light + c, start(a=0, b=1, c=1))\n                                                ^\n"), "{m}");
+    assert!(m.contains("fix: change the starting values"), "{m}");
+}
+
+#[test]
+fn nonlinear_no_convergence_within_the_limit_gives_the_values_reached() {
+    let m = first_problem("#nonlinear(Yield, a*exp(-k*Light) + c, start(a=1, k=0.1, c=1), limit=2)");
+    // Two trial steps, neither lowering the sum of squares: still at the start.
+    assert!(m.starts_with("book.xlsx, Weekly!H2: error: no convergence within limit=2 iterations: it stopped at start(a=1, k=0.1, c=1) (residual sum of squares "), "{m}");
+    assert!(m.contains("); no trial step lowered the residual sum of squares from the starting values\n"), "{m}");
+    assert!(m.contains("fix: raise limit=, or go on from the values reached: paste them over start(…)"), "{m}");
+    // Yield grows about linearly with Light, so a·Light^b has a minimum near b = 1.
+    let m = first_problem("#nonlinear(Yield, a*Light^b, start(a=1, b=2), limit=3)");
+    assert!(m.contains("no convergence within limit=3 iterations: it stopped at start(a="), "{m}");
+    assert!(m.contains("the last accepted step came from start(a="), "{m}");
+    assert!(!m.contains("NaN"), "{m}");
+    // The values reached, pasted over start(…), go on to a converged fit.
+    let reached = &m[m.find("stopped at ").unwrap() + 11..m.find(" (residual").unwrap()];
+    let s = evaluate_book(&book(&[&format!("#nonlinear(Yield, a*Light^b, {reached})")]), "book.xlsx", &Registry::builtin());
+    assert_ne!(s.reports[0].status, Status::Error, "{reached}: {:?}", s.reports[0].messages);
+}

@@ -253,51 +253,17 @@ fn compare_refuses_other_responses_and_other_rows() {
     let _ = std::fs::remove_dir_all(&d);
 }
 
-/// Every chart part of an xlsx file: its title texts and the ranges its series read.
-fn chart_parts(path: &Path) -> Vec<(Vec<String>, Vec<String>)> {
-    let f = std::fs::File::open(path).unwrap();
-    let mut z = zip::ZipArchive::new(f).unwrap();
-    let mut names: Vec<String> = z.file_names().filter_map(|n| n.ok().map(|n| n.to_string())).filter(|n| n.starts_with("xl/charts/chart")).collect();
-    names.sort_by_key(|n| n.trim_start_matches("xl/charts/chart").trim_end_matches(".xml").parse::<u32>().unwrap_or(0));
-    let grab = |s: &str, open: &str, close: &str| -> Vec<String> {
-        s.split(open).skip(1).filter_map(|p| p.split(close).next()).map(String::from).collect()
-    };
-    names
-        .iter()
-        .map(|n| {
-            let mut s = String::new();
-            z.by_name(n).unwrap().read_to_string(&mut s).unwrap();
-            (grab(&s, "<a:t>", "</a:t>"), grab(&s, "<c:f>", "</c:f>"))
-        })
-        .collect()
-}
-
-/// `Charts!$AA$3:$AA$23` → (column index, first row, last row), 0-based.
-fn parse_range(r: &str) -> (u32, u32, u32) {
-    let (_, cells) = r.split_once('!').unwrap();
-    let (a, b) = cells.split_once(':').unwrap();
-    let cell = |c: &str| {
-        let c = c.replace('$', "");
-        let letters: String = c.chars().take_while(|x| x.is_ascii_alphabetic()).collect();
-        let row: u32 = c[letters.len()..].parse().unwrap();
-        let col = letters.bytes().fold(0u32, |acc, l| acc * 26 + u32::from(l - b'A' + 1)) - 1;
-        (col, row - 1)
-    };
-    let ((c, r0), (_, r1)) = (cell(a), cell(b));
-    (c, r0, r1)
-}
-
 #[test]
 fn charts_read_the_cells_of_their_fits() {
     let d = scratch("predict-charts");
     let input = book(&d, &[REQUESTS[0], REQUESTS[1]]);
     let out = d.join("out.xlsx");
     run_to(&input, &out);
-    let charts = chart_parts(&out);
+    let charts = output::chart_parts(&out);
     assert_eq!(charts.len(), 6, "three charts per fit");
     let t = output::table(&out, "Charts");
     let column = |r: &str| -> (String, Vec<f64>) {
-        let (c, r0, r1) = parse_range(r);
+        let (c, r0, r1) = output::parse_range(r);
         let head = text(&t[r0 as usize - 1][c as usize]).unwrap_or("").to_string();
         (head, (r0..=r1).map(|i| num(&t[i as usize][c as usize]).unwrap()).collect())
     };

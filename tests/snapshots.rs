@@ -82,3 +82,27 @@ fn polynomial_with_predict() {
     );
     snapshot_of(&path, "polynomial-predict");
 }
+
+/// A decay curve with `#nonlinear` and `#predict` on it. Invented data:
+/// grain moisture (%) over 16 hours of drying, 12 + 18·e^(−0.25·h) plus a
+/// small fixed wobble; one column, so the charts show the fitted curve.
+#[test]
+fn nonlinear_with_predict() {
+    let n = 16u32;
+    let hours: Vec<Option<f64>> = (0..n).map(|i| Some(i as f64)).collect();
+    let moisture: Vec<Option<f64>> = (0..n)
+        .map(|i| {
+            let h = i as f64;
+            Some(12.0 + 18.0 * (-0.25 * h).exp() + 0.2 * [1.0, -0.5, -1.0, 0.5, 0.0][i as usize % 5])
+        })
+        .collect();
+    let path = tmp("nonlinear-predict");
+    write_mixed_table(
+        &path,
+        "Drying",
+        &["Hours", "Moisture"],
+        &[Col::Num(hours), Col::Num(moisture)],
+        &[(1, 4, "#nonlinear(Moisture, a*exp(-k*Hours) + c, start(a=20, k=0.2, c=10), name=drying)"), (2, 4, "#predict(drying, Hours=7.5)")],
+    );
+    snapshot_of(&path, "nonlinear-predict");
+}

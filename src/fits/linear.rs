@@ -35,6 +35,7 @@ pub(crate) fn param(name: &str, kind: ParamKind, default: Option<&str>, choices:
         default: default.map(Into::into),
         choices: choices.iter().map(|c| c.to_string()).collect(),
         help: help.into(),
+        example: None,
     }
 }
 
@@ -47,7 +48,7 @@ pub fn shared_options() -> Vec<ParamSpec> {
         param("weights", ParamKind::Column, None, &[], "a column of non-negative weights (weighted least squares)"),
         param("gaps", ParamKind::Choice, Some("skip"), &["skip", "stop"], "a row with a blank, text or error cell in a column the request uses: skip it (and count it), or stop with an error"),
         param("table", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
-        param("against", ParamKind::Group, None, &[], "the reference level of a text column, which its other levels are compared with, e.g. against(Bay=\"East\")"),
+        ParamSpec { example: Some("against(Bay=\"East\")".into()), ..param("against", ParamKind::Group, None, &[], "the reference level of a text column, which its other levels are compared with, e.g. against(Bay=\"East\")") },
         param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3"], "standard errors: classic (constant variance) or heteroscedasticity-consistent hc0, hc1, hc2, hc3"),
     ]
 }

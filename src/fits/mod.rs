@@ -141,6 +141,7 @@ pub fn host_functions() -> Vec<FunctionSpec> {
         default: default.map(Into::into),
         choices: Vec::new(),
         help: help.into(),
+        example: None,
     };
     vec![
         FunctionSpec {

@@ -35,7 +35,10 @@ impl Nonlinear {
     /// The fit with its spec.
     pub fn new() -> Self {
         let p = |name: &str, kind: ParamKind, required: bool, default: Option<&str>, help: &str| ParamSpec { required, ..param(name, kind, default, &[], help) };
-        let mut options = vec![p("start", ParamKind::Group, true, None, "the parameters with their starting values, such as start(a=40, k=0.2, c=5)")];
+        let mut options = vec![ParamSpec {
+            example: Some("start(a=…, k=…)".into()),
+            ..p("start", ParamKind::Group, true, None, "the parameters with their starting values, such as start(a=40, k=0.2, c=5)")
+        }];
         options.extend(shared_options().into_iter().filter(|o| ["name", "confidence", "weights", "gaps", "table"].contains(&o.name.as_str())));
         let default_limit = nls::DEFAULT_LIMIT.to_string();
         options.push(p("limit", ParamKind::Integer, false, Some(&default_limit), "the most iterations (trial steps) before the fit gives up"));
@@ -171,16 +174,26 @@ fn has_additive_constant(f: &Formula) -> bool {
     }
 }
 
-/// A number with at most 7 significant digits, for messages.
+/// A number with at most 7 significant digits and no trailing zeros, for
+/// messages (`1`, `0.1`, `182.2948`, `1.5e-7`).
 fn figure(x: f64) -> String {
+    fn trimmed(t: &str) -> &str {
+        if t.contains('.') {
+            t.trim_end_matches('0').trim_end_matches('.')
+        } else {
+            t
+        }
+    }
     if x == 0.0 || !x.is_finite() {
         return format!("{x}");
     }
     if x.abs() >= 1e6 || x.abs() < 1e-3 {
-        format!("{x:.6e}")
+        let t = format!("{x:.6e}");
+        let (m, e) = t.split_once('e').unwrap_or((&t, "0"));
+        format!("{}e{e}", trimmed(m))
     } else {
         let digits = (6 - x.abs().log10().floor() as i32).clamp(0, 12) as usize;
-        format!("{x:.digits$}")
+        trimmed(&format!("{x:.digits$}")).to_string()
     }
 }
 
@@ -246,16 +259,18 @@ impl Fit for Nonlinear {
                 .at_row(row),
         })?;
         if !fit.stop.converged() {
-            let now: Vec<String> = names.iter().zip(&fit.parameters).map(|(n, v)| format!("{n}={}", figure(*v))).collect();
-            let before: Vec<String> = names.iter().zip(&fit.previous).map(|(n, v)| format!("{n}={}", figure(*v))).collect();
+            let group = |b: &[f64]| format!("start({})", names.iter().zip(b).map(|(n, v)| format!("{n}={}", figure(*v))).collect::<Vec<_>>().join(", "));
+            let last = if fit.jacobians > 1 {
+                format!("the last accepted step came from {} and changed the parameters by {} relative", group(&fit.previous), figure(fit.last_step))
+            } else {
+                "no trial step lowered the residual sum of squares from the starting values".to_string()
+            };
             return Err(FitError::new(format!(
-                "no convergence within limit={limit} iterations: it stopped at {} (residual sum of squares {}); the last accepted step came from {} and changed the parameters by {} relative",
-                now.join(", "),
+                "no convergence within limit={limit} iterations: it stopped at {} (residual sum of squares {}); {last}",
+                group(&fit.parameters),
                 figure(fit.rss),
-                before.join(", "),
-                figure(fit.last_step)
             ))
-            .help("raise limit=, or start from the values reached: paste them into start(…)"));
+            .help("raise limit=, or go on from the values reached: paste them over start(…)"));
         }
         let b = &fit.parameters;
         let df = (n - p) as f64;

@@ -30,6 +30,7 @@ impl Polynomial {
             default: None,
             choices: Vec::new(),
             help: help.into(),
+            example: None,
         };
         let mut options = vec![p("degree", ParamKind::Integer, "the degree k of the polynomial: the terms are x, x², …, x^k")];
         options.extend(shared_options());

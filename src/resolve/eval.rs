@@ -376,6 +376,12 @@ impl Ctx<'_> {
         let e = &col.expr;
         if let ExprKind::Name(n) | ExprKind::Quoted(n) = &e.kind {
             if !frame.headers.contains_key(&n.trim().to_lowercase()) {
+                if matches!(e.kind, ExprKind::Name(_)) && looks_like_parameter(n.trim()) {
+                    let list: Vec<String> = parameters.iter().map(|p| format!("{p}=…")).chain([format!("{}=…", n.trim())]).collect();
+                    return Err(self
+                        .err(e.span, format!("{} has no starting value: it is no header of the table {}!{}, so it is taken for a parameter", n.trim(), crate::cells::quote_sheet_name(&frame.grid.name), frame.range()))
+                        .help(format!("add it to the starting values, {group}({}), or write the column's header", list.join(", "))));
+                }
                 let candidates = frame.header_names.iter().chain(parameters).map(|s| s.as_str());
                 let near = closest(n.trim(), candidates);
                 let known = format!("The headers are {}; the parameters are {}", frame.header_names.join(", "), parameters.join(", "));
@@ -399,6 +405,13 @@ impl Ctx<'_> {
         };
         self.err(span, format!("there is no column headed '{}' in {where_}", name.trim())).help(help)
     }
+}
+
+/// A name that is obviously meant as a parameter when no header has it:
+/// one letter, perhaps followed by digits (`k`, `b2`).
+fn looks_like_parameter(name: &str) -> bool {
+    let mut c = name.chars();
+    c.next().is_some_and(|f| f.is_alphabetic()) && c.all(|d| d.is_ascii_digit())
 }
 
 fn map_num(mut v: Num, f: impl Fn(f64) -> f64) -> Num {

@@ -449,11 +449,10 @@ pub fn resolve(
         options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
     };
     let placement = frame.placement(&keep);
-    // A recipe rebuilds linear model rows; a model expression is its own.
-    let recipe = match roles.expression {
-        None => design::build_recipe(&frame, &keep, term_exprs, &host.bases, intercept, &request.columns),
-        Some(_) => None,
-    };
+    // A recipe rebuilds the request's columns from new values: the terms'
+    // columns, after a model expression's columns, each of them as itself.
+    let recipe_terms: Vec<Expr> = expression_columns.iter().map(|e| (*e).clone()).chain(term_exprs.iter().cloned()).collect();
+    let recipe = design::build_recipe(&frame, &keep, &recipe_terms, &host.bases, intercept, &request.columns);
     let term_spans: Vec<(String, Span)> = roles
         .expression
         .map(|x| (x.text.clone(), x.expr.span))

@@ -44,7 +44,7 @@ fn bind_text(text: &str, spec: &FunctionSpec) -> Result<Bound, Problem> {
 }
 
 fn param(name: &str, kind: ParamKind, help: &str) -> ParamSpec {
-    ParamSpec { name: name.into(), kind, required: true, default: None, choices: Vec::new(), help: help.into() }
+    ParamSpec { name: name.into(), kind, required: true, default: None, choices: Vec::new(), help: help.into(), example: None }
 }
 
 fn builtin(name: &str) -> FunctionSpec {
@@ -286,7 +286,11 @@ fn start_values_reach_the_fit_as_a_group_of_numbers() {
     assert_eq!(x.parameters, ["a", "k", "c"], "in the order start(…) lists them");
     assert!(!r.request.intercept, "the model has its own constant");
     assert_eq!(r.terms, ["a*exp(-k*Hours) + c"]);
-    assert!(r.recipe.is_none());
+    // The recipe rebuilds the model's one column, Hours, from a new value.
+    let rec = r.recipe.as_ref().expect("a model of named columns has a recipe");
+    assert_eq!(rec.inputs.iter().map(|i| i.name.as_str()).collect::<Vec<_>>(), ["Hours"]);
+    assert_eq!(rec.columns_at(&[crate::recipe::NewValue::Number(2.5)]).unwrap(), [2.5]);
+    assert_eq!(rec.single_input.as_deref(), Some(r.request.columns[0].values.as_slice()));
 }
 
 #[test]
