@@ -302,6 +302,11 @@ pub struct Coefficient {
     /// when the term is aliased, which the host says itself).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub remark: Option<String>,
+    /// The p-value of the joint test of every column of this row's term
+    /// (the indicators of a text column, say), when the term has more than
+    /// one column; the test's figures are among the statistics.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub term_p_value: Option<f64>,
 }
 
 /// How a statistic's value is shown.
@@ -1135,7 +1140,7 @@ mod tests {
     /// A well-formed outcome for [`request`] (invented figures: only its
     /// shape is checked).
     fn outcome() -> FitOutcome {
-        let c = |term: &str, e: f64| Coefficient { term: term.into(), estimate: Some(e), std_error: Some(0.5), statistic: Some(e / 0.5), p_value: Some(0.2), lower: Some(e - 1.0), upper: Some(e + 1.0), vif: None, standardized: None, remark: None };
+        let c = |term: &str, e: f64| Coefficient { term: term.into(), estimate: Some(e), std_error: Some(0.5), statistic: Some(e / 0.5), p_value: Some(0.2), lower: Some(e - 1.0), upper: Some(e + 1.0), vif: None, standardized: None, remark: None, term_p_value: None };
         FitOutcome {
             coefficients: vec![c("(intercept)", -1.0), c("Light", 1.5)],
             statistics: vec![Statistic::new("n", "Rows used", "Fit", 3.0).format(NumberFormat::Integer), Statistic::new("r2", "R²", "Fit", f64::NAN)],

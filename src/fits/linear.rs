@@ -19,8 +19,14 @@ pub const INTERCEPT: &str = "Intercept";
 pub const GROUP_FIT: &str = "How closely does it fit?";
 /// Diagnostics heading: the overall F test.
 pub const GROUP_HELP: &str = "Do the terms help at all?";
+/// Diagnostics heading: the test of each term given all the others.
+pub const GROUP_TERMS: &str = "Does each term help, given the others?";
 /// Diagnostics heading: log-likelihood, AIC and BIC.
 pub const GROUP_COMPARE: &str = "For comparing fits of one response";
+
+/// A term's label, its number of columns and its test (F, degrees of
+/// freedom, p-value), when it has one.
+type TermTest = (String, usize, Option<(f64, f64, f64)>);
 
 /// The built-in least-squares fit.
 pub struct Linear {
@@ -190,11 +196,13 @@ impl Fit for Linear {
             Some(_) => return Err(FitError::new("errors= takes a word").help("errors takes classic, hc0, hc1, hc2, hc3")),
         };
         let intercept_col = req.intercept.then_some(0);
+        // The covariance every test uses: classic, or robust with errors=hc*.
+        let cov_used = if kind == ErrorKind::Classic { fit.covariance.clone() } else { diag::robust_covariance(&fit, &x, kind) };
         let table = if kind == ErrorKind::Classic {
             numeric::coefficient_table(&fit, req.level)
         } else {
             // Same t tests and intervals, on the robust standard errors.
-            let cov = diag::robust_covariance(&fit, &x, kind);
+            let cov = &cov_used;
             let mut robust = fit.clone();
             robust.std_errors = (0..p).map(|j| cov[j * p + j].sqrt()).collect();
             numeric::coefficient_table(&robust, req.level)
@@ -220,6 +228,22 @@ impl Fit for Linear {
         }
         let blocks = term_blocks(req);
         let in_block = |j: usize| blocks.iter().any(|(_, cols)| cols.len() > 1 && cols.contains(&j));
+        // A test of each term given all the others: the Wald statistic of
+        // its estimable columns over their number, on F(q, n − p). With the
+        // classic covariance this is exactly the F of dropping the term
+        // (every other term kept, the "each term given all the others"
+        // question, which a reader of one row of the table asks); with
+        // errors=hc* it is the robust Wald test in its F form, W/q.
+        let b_all: Vec<f64> = fit.coefficients.clone();
+        let wald_f = |cols: &[usize]| -> Option<(f64, f64, f64)> {
+            let idx: Vec<usize> = cols.iter().copied().filter(|&j| !fit.aliased[j]).collect();
+            let q = idx.len() as f64;
+            let w = diag::wald(&b_all, &cov_used, p, &idx)?;
+            let f = w / q;
+            Some((f, q, numeric::f_sf(f, q, fit.df_resid)))
+        };
+        let term_tests: Vec<TermTest> = blocks.iter().map(|(t, cols)| (t.clone(), cols.len(), wald_f(cols))).collect();
+        let term_p = |j: usize| term_tests.iter().zip(&blocks).find(|(_, (_, cols))| cols.len() > 1 && cols.contains(&j)).and_then(|((_, _, t), _)| t.map(|t| t.2));
         for (j, row) in table.iter().enumerate() {
             let est = !fit.aliased[j];
             // VIF and standardized coefficients mean nothing for a power
@@ -250,6 +274,7 @@ impl Fit for Linear {
                 vif: if plain { finite(vif[j]) } else { None },
                 standardized: if plain || (req.intercept && !structural[j]) { finite(standardized[j]) } else { None },
                 remark: remark.map(Into::into),
+                term_p_value: if est { term_p(j) } else { None },
             });
             if fit.aliased[j] {
                 let combo: Vec<String> = fit.alias_of[j].iter().map(|(k, _)| labels[*k].clone()).collect();
@@ -290,6 +315,29 @@ impl Fit for Linear {
             dec("anova_f", "F (mean square of the terms / mean square of the residual)", a, fit.f_statistic, 2),
             pval("anova_f_p_value", "p-value of F (upper tail)", a, fit.f_p_value),
         ];
+        // With errors=hc* the overall F is the robust Wald test of every
+        // coefficient but the intercept (W/q on F(q, n − p)).
+        if kind != ErrorKind::Classic {
+            let all: Vec<usize> = (usize::from(req.intercept)..p).collect();
+            if let (Some((f, _, pv)), Some(at)) = (wald_f(&all), out.statistics.iter().position(|s| s.key == "f_statistic")) {
+                out.statistics[at] = dec("f_statistic", "F statistic", h, f, 2);
+                if let Some(s) = out.statistics.iter_mut().find(|s| s.key == "f_p_value") {
+                    s.value = pv;
+                }
+            }
+            out.notes.push(format!("the F test of all the terms and the test of each term are robust Wald tests on the {} covariance, in their F form W/q; the analysis of variance stays classic", kind.label()));
+        }
+        // Each term given all the others, after the overall F.
+        let t = GROUP_TERMS;
+        let mut tests = Vec::new();
+        for (term, _, test) in &term_tests {
+            let Some((f, q, pv)) = test else { continue };
+            tests.push(dec(&format!("term_f:{term}"), &format!("{term}: F"), t, *f, 2));
+            tests.push(count(&format!("term_df:{term}"), &format!("{term}: degrees of freedom"), t, *q));
+            tests.push(pval(&format!("term_p:{term}"), &format!("{term}: p-value"), t, *pv));
+        }
+        let at = out.statistics.iter().position(|s| s.key == "f_p_value").map_or(out.statistics.len(), |i| i + 1);
+        out.statistics.splice(at..at, tests);
         if !req.intercept {
             out.notes.push("no intercept: R² is the uncentred one, 1 − SSE/Σy²".into());
         }

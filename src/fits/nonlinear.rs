@@ -297,6 +297,7 @@ impl Fit for Nonlinear {
                 vif: None,
                 standardized: None,
                 remark: None,
+                term_p_value: None,
             });
         }
         if !cov.aliased.is_empty() {

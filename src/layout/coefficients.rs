@@ -1,6 +1,8 @@
 //! The Coefficients sheet: one row per coefficient of every fit, with its
-//! standard error and confidence interval beside it, its t test, VIF and
-//! standardized coefficient, and why any figure is left blank.
+//! standard error and confidence interval beside it, its t test, the
+//! p-value of its whole term's joint test (a text column's indicators
+//! together), VIF and standardized coefficient, and why any figure is left
+//! blank.
 
 use super::{OutCell, Sheet, Style};
 use crate::protocol::Coefficient;
@@ -38,6 +40,7 @@ pub(super) fn sheet(coef_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<u32>
         ("Confidence interval: to", 14.0),
         ("t statistic", 11.0),
         ("p-value", 11.0),
+        ("p-value of the whole term", 12.0),
         ("VIF", 9.0),
         ("Standardized coefficient", 14.0),
         ("Standard-error method", 12.0),
@@ -63,15 +66,16 @@ pub(super) fn sheet(coef_n: &str, reports: &[Report]) -> (Sheet, Vec<Option<u32>
             coef.put(row, 6, OutCell::maybe(c.upper, est));
             coef.put(row, 7, OutCell::maybe(c.statistic, Style::Fixed(2)));
             coef.put(row, 8, OutCell::maybe(c.p_value, Style::PValue));
-            coef.put(row, 9, OutCell::maybe(c.vif, Style::Fixed(2)));
-            coef.put(row, 10, OutCell::maybe(c.standardized, Style::Fixed(3)));
+            coef.put(row, 9, OutCell::maybe(c.term_p_value, Style::PValue));
+            coef.put(row, 10, OutCell::maybe(c.vif, Style::Fixed(2)));
+            coef.put(row, 11, OutCell::maybe(c.standardized, Style::Fixed(3)));
             if let Some(kind) = &o.standard_errors {
-                coef.put(row, 11, OutCell::text(kind, Style::Plain));
+                coef.put(row, 12, OutCell::text(kind, Style::Plain));
             }
             if c.estimate.is_none() {
-                coef.put(row, 12, OutCell::text("not estimable (collinear)", Style::Warning));
+                coef.put(row, 13, OutCell::text("not estimable (collinear)", Style::Warning));
             } else if let Some(why) = &c.remark {
-                coef.put(row, 12, OutCell::text(why, Style::Wrap));
+                coef.put(row, 13, OutCell::text(why, Style::Wrap));
             }
             row += 1;
         }

@@ -387,6 +387,26 @@ impl ErrorKind {
     }
 }
 
+/// The Wald statistic `W = b_Tᵀ V_T⁻¹ b_T` of the coefficients `idx`
+/// (Wald 1943; e.g. Greene, *Econometric Analysis*, 7th ed., 2012, §5.4),
+/// with `V_T` their block of the `p × p` column-major covariance `cov`,
+/// solved through the Cholesky factor of that small block. With the
+/// classic covariance `s²(XᵀX)⁻¹`, `W/q` is exactly the F statistic of
+/// dropping those columns from the fit (the extra-sum-of-squares F);
+/// with a heteroscedasticity-consistent covariance it is the robust Wald
+/// test. `None` when the block is not positive definite.
+pub fn wald(b: &[f64], cov: &[f64], p: usize, idx: &[usize]) -> Option<f64> {
+    let q = idx.len();
+    if q == 0 {
+        return None;
+    }
+    let m = nalgebra::DMatrix::from_fn(q, q, |i, j| cov[idx[j] * p + idx[i]]);
+    let v = nalgebra::DVector::from_iterator(q, idx.iter().map(|&j| b[j]));
+    let x = nalgebra::linalg::Cholesky::new(m)?.solve(&v);
+    let w = v.dot(&x);
+    w.is_finite().then_some(w)
+}
+
 /// Heteroscedasticity-consistent ("sandwich") covariance of the
 /// coefficients, `p × p` column-major in the caller's column order, NaN in
 /// the rows and columns of aliased columns:
