@@ -41,7 +41,11 @@ pub fn level_key(s: &str) -> String {
 pub type Func = Function;
 
 /// The standard spreadsheet function of the same meaning (names of the
-/// OpenFormula standard, which every spreadsheet application reads).
+/// OpenFormula standard, which every spreadsheet application reads). Every
+/// function of the language has one; the match is exhaustive, so a function
+/// added to [`Function`] must be given its equivalent here (or the
+/// formulas that use it made to answer none, which the calculator reports)
+/// before the program builds.
 fn sheet_function(f: Function) -> &'static str {
     match f {
         Function::Log => "LN",

@@ -129,6 +129,23 @@ fn inverse_link(link: Link, x: &str) -> String {
     }
 }
 
+/// In place of the calculator of a model that cannot be written as a
+/// spreadsheet formula, a line that says so (never a wrong formula).
+/// Returns the next free row.
+fn no_live_model(s: &mut Sheet, row: u32, r: &Report) -> u32 {
+    s.put(row, 0, OutCell::text(format!("Prediction calculator — {}: {}", r.name, r.text.trim()), Style::Title));
+    s.put(
+        row + 1,
+        0,
+        OutCell::text(
+            "No calculator for this fit: its model cannot be written as a spreadsheet formula of the input and coefficient cells (a number in it is not finite, or it uses a column the calculator has no input for). #predict gives predictions from it.",
+            Style::Warning,
+        ),
+    );
+    s.regions.push(Region { owner: r.cell.clone(), what: format!("the prediction calculator of {}", r.name), first_row: row, last_row: row + 1 });
+    row + 3
+}
+
 /// The prediction calculator of one fit from `row`: input cells, live
 /// formulas for the prediction and its intervals, and the coefficients and
 /// covariance matrix they read. A predictor linear in its coefficients
@@ -203,8 +220,9 @@ fn calculator(s: &mut Sheet, row: u32, book: &Workbook, r: &Report) -> u32 {
             (format!("SUMPRODUCT({},{})", range(bcol, r_t0, bcol, r_t1), range(xcol, r_t0, xcol, r_t1)), t)
         }
         PredictorForm::Model { formula } => {
-            let Some(eta) = sheet_formula(formula, &col_texts, &b_cells) else { return row };
-            let Some(t) = (0..p).map(|j| sheet_formula(&formula.derivative(j), &col_texts, &b_cells)).collect::<Option<Vec<String>>>() else { return row };
+            let eta = sheet_formula(formula, &col_texts, &b_cells);
+            let t = (0..p).map(|j| sheet_formula(&formula.derivative(j), &col_texts, &b_cells)).collect::<Option<Vec<String>>>();
+            let (Some(eta), Some(t)) = (eta, t) else { return no_live_model(s, row, r) };
             (eta, t)
         }
     };
@@ -548,6 +566,20 @@ mod tests {
         assert_eq!(find(&rows, "Confidence interval: to").2, pt.mean_upper);
         assert!(find(&rows, "t quantile").1.starts_with("TINV("));
         assert_eq!(find(&rows, "Residual degrees of freedom").2, 12.0);
+    }
+
+    #[test]
+    fn a_model_without_a_spreadsheet_formula_gets_a_line_saying_so() {
+        // A model naming a column (3) the recipe has no input for.
+        let f = Formula::Mul(Box::new(Formula::Parameter(0)), Box::new(Formula::Column(3)));
+        let mut r = report(PredictorForm::Model { formula: f }, Link::Identity, Some(0.8), Some(27.0), &[2.0]);
+        if let Some(rec) = r.recipe.as_mut() {
+            rec.intercept = false;
+        }
+        let mut s = Sheet::new("Intervals");
+        assert_eq!(calculator(&mut s, 0, &Workbook { sheets: Vec::new() }, &r), 3);
+        assert!(matches!(s.cells.get(&(1, 0)).map(|c| &c.content), Some(Content::Text(t)) if t.starts_with("No calculator for this fit")));
+        assert!(!s.cells.values().any(|c| matches!(c.content, Content::Formula(..))), "no formula is written");
     }
 
     #[test]
