@@ -1,7 +1,8 @@
 //! Writes the demo workbook `demo-data/greenhouse.xlsx`: an invented
 //! greenhouse with four bays, 26 weekly records per bay, and a column of
 //! requests for plumb to answer, one of them with a deliberate typo so a new
-//! user sees what an error looks like.
+//! user sees what an error looks like; and a day of substrate moisture after
+//! watering, with a curve fitted to it.
 //!
 //! ```text
 //! cargo run --example make_demo              # writes demo-data/greenhouse.xlsx
@@ -115,10 +116,28 @@ const REQUESTS: [&str; 9] = [
 /// The Plan sheet: conditions a grower might plan for, to predict from.
 const PLAN: [(f64, f64, &str); 4] = [(12.0, 700.0, "North"), (14.0, 900.0, "South"), (15.5, 1000.0, "East"), (18.0, 800.0, "West")];
 
+/// The Drying sheet: substrate moisture of one tray, read every hour for a
+/// day after watering. Invented: an exponential decay towards the moisture
+/// the substrate holds,
+/// moisture = 12 + 34·e^(−0.21·hours) + N(0, 0.4²), to one decimal.
+fn drying() -> Vec<(f64, f64)> {
+    let mut rng = SplitMix64(0x6472_7969_6E67_2121); // fixed seed of its own
+    (0..=24)
+        .map(|h| {
+            let hours = f64::from(h);
+            (hours, round_to(12.0 + 34.0 * (-0.21 * hours).exp() + 0.4 * rng.normal(), 1))
+        })
+        .collect()
+}
+
+/// The requests of the Drying sheet, from D2 down: the curve and a
+/// prediction from it.
+const DRYING_REQUESTS: [&str; 2] = ["#nonlinear(Moisture, a*exp(-k*Hours) + c, start(a=40, k=0.2, c=5), name=drying)", "#predict(drying, Hours=10)"];
+
 /// Column of the requests: N, leaving G..M (seven columns) empty after the table.
 const REQUEST_COL: u16 = 13;
 
-const NOTES: [&str; 10] = [
+const NOTES: [&str; 11] = [
     "About this workbook",
     "Invented data for trying plumb: a greenhouse with four bays (North, South, East, West), one record per bay per week from 5 January 2026.",
     "Light: hours of light per day, daylight plus lamps. CO2: mean concentration in ppm. Irrigation: litres per square metre per week.",
@@ -128,6 +147,7 @@ const NOTES: [&str; 10] = [
     "The third request compares each bay with East, its reference level (against(Bay=\"East\")): its terms read Bay: North vs East, Bay: South vs East, Bay: West vs East.",
     "The fifth request has a typo on purpose (Ligth), to show how plumb reports an error and suggests the closest column name.",
     "The last requests show predictions from a named fit (at typed values, or for each row of the Plan sheet) and a comparison of fits of Yield.",
+    "The Drying sheet holds the moisture of a tray's substrate (% by volume) each hour after watering, and a curve fitted to it: #nonlinear(Moisture, a*exp(-k*Hours) + c, …), where c is the moisture the substrate keeps, a what drains away and k how fast.",
     "Run: plumb run greenhouse.xlsx",
 ];
 
@@ -192,6 +212,23 @@ fn main() -> Result<(), Box<dyn Error>> {
         plan.write_string(row, 2, *bay)?;
     }
     plan.write_string_with_format(6, 0, "Planned conditions; #predict(bays, rows=Plan!A1:C5) on the Weekly sheet predicts Yield for each row. 18 hours of light is beyond the data on purpose.", &label)?;
+
+    let dry = wb.add_worksheet();
+    dry.set_name("Drying")?;
+    for (j, h) in ["Hours", "Moisture"].iter().enumerate() {
+        dry.write_string_with_format(0, j as u16, *h, &header)?;
+    }
+    for (i, (hours, moisture)) in drying().iter().enumerate() {
+        let row = i as u32 + 1;
+        dry.write_number(row, 0, *hours)?;
+        dry.write_number(row, 1, *moisture)?;
+    }
+    dry.write_string_with_format(0, 3, "Requests", &label)?;
+    for (i, req) in DRYING_REQUESTS.iter().enumerate() {
+        dry.write_string(i as u32 + 1, 3, *req)?;
+    }
+    dry.set_column_width(3, 60)?;
+    dry.set_freeze_panes(1, 0)?;
 
     let notes = wb.add_worksheet();
     notes.set_name("Notes")?;

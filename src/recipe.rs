@@ -41,7 +41,11 @@ pub fn level_key(s: &str) -> String {
 pub type Func = Function;
 
 /// The standard spreadsheet function of the same meaning (names of the
-/// OpenFormula standard, which every spreadsheet application reads).
+/// OpenFormula standard, which every spreadsheet application reads). Every
+/// function of the language has one; the match is exhaustive, so a function
+/// added to [`Function`] must be given its equivalent here (or the
+/// formulas that use it made to answer none, which the calculator reports)
+/// before the program builds.
 fn sheet_function(f: Function) -> &'static str {
     match f {
         Function::Log => "LN",
@@ -56,16 +60,19 @@ fn sheet_function(f: Function) -> &'static str {
     }
 }
 
-/// A [`Formula`] of a fit's model row as spreadsheet formula text, each
-/// [`Formula::Column`]`(j)` replaced by `columns[j]` (the formula or cell
-/// computing the request's column `j`). A formula with parameters, or
-/// naming a column not given, has none.
-pub fn sheet_formula(f: &Formula, columns: &[String]) -> Option<String> {
-    let p = |f: &Formula| sheet_formula(f, columns);
+/// A [`Formula`] (a fit's model row, or a model and its derivatives) as
+/// spreadsheet formula text, each [`Formula::Column`]`(j)` replaced by
+/// `columns[j]` (the formula or cell computing the request's column `j`)
+/// and each [`Formula::Parameter`]`(k)` by `parameters[k]` (the cell
+/// holding coefficient `k`). A formula naming a column or parameter not
+/// given, or holding a number that is not finite, has none.
+pub fn sheet_formula(f: &Formula, columns: &[String], parameters: &[String]) -> Option<String> {
+    let p = |f: &Formula| sheet_formula(f, columns, parameters);
     Some(match f {
+        Formula::Number(x) if !x.is_finite() => return None,
         Formula::Number(x) => number_literal(*x),
         Formula::Column(j) => columns.get(*j)?.clone(),
-        Formula::Parameter(_) => return None,
+        Formula::Parameter(k) => parameters.get(*k)?.clone(),
         Formula::Neg(a) => format!("(-{})", p(a)?),
         Formula::Add(a, b) => format!("(({})+({}))", p(a)?, p(b)?),
         Formula::Sub(a, b) => format!("(({})-({}))", p(a)?, p(b)?),

@@ -7,7 +7,11 @@ the Intervals sheet, the calculator's input cells are set to the first
 point of the table (and its confidence level), every cached formula value
 of the sheet is removed, and LibreOffice, with recalculation on load forced,
 converts the workbook. The recalculated predicted value and interval bounds
-must equal plumb's to 1e-9 relative.
+must equal plumb's to 1e-9 relative. The same holds for every kind of
+calculator: a predictor linear in its coefficients (term values), a model
+formula (the model and its gradient written live), and a link other than the
+identity (a linear predictor row first, no prediction interval: only the rows
+a calculator has are compared).
 
 Usage: python3 tests/calculator_recalc.py OUTPUT.xlsx
 Needs: soffice (apt-get install libreoffice-calc-nogui) and openpyxl.
@@ -72,7 +76,12 @@ def find_checks(ws):
             inputs[rows[j][1].coordinate] = point[rows[j][0].value]
             j += 1
         level_cell = rows[j][1].coordinate
-        for r2 in rows[j + 1:j + 12]:
+        # The result rows run to the term table's header ("Term"): ten for
+        # least squares, fewer with a link (no prediction interval, a
+        # linear predictor row first) or without degrees of freedom.
+        for r2 in rows[j + 1:]:
+            if cell_text(r2) == "Term":
+                break
             if cell_text(r2) in RESULTS:
                 results[cell_text(r2)] = r2[1].coordinate
         checks.append((fit, inputs, level_cell, level, results, want))

@@ -142,6 +142,22 @@ fn engel_power_curve_and_predictions_match_scipy() {
         let found = (0..cols[0].len()).any(|i| cols[0][i] == *x && relative_difference(*y, cols[1][i]) < 1e-12);
         assert!(found, "observed {y} at income {x} is no data row");
     }
+    // The prediction calculator of the curve: a·income^b written live over
+    // the income and coefficient cells, its gradient as the formulas of its
+    // symbolic derivatives. With PLUMB_RECALC set (as .ci/run does),
+    // LibreOffice recalculates it at the first #predict point, every cached
+    // value removed, and must agree with #predict to 1e-9.
+    let calc = t.iter().position(|r| r.first().and_then(text).is_some_and(|x| x.starts_with("Prediction calculator — engel: "))).expect("a calculator of the curve");
+    let grad = t[calc..].iter().position(|r| r.get(2).and_then(text).is_some_and(|x| x.starts_with("Gradient"))).expect("a gradient column");
+    let formulas = output::elements(&output::sheet_xml(&out, "Intervals"), "<f>", "</f>");
+    let model = formulas.iter().find(|f| f.contains('^') && f.contains("$B$")).expect("the model as a live formula");
+    assert!(!model.contains("SUMPRODUCT"), "the model itself, not a sum of terms: {model}");
+    assert!(grad > 0);
+    if std::env::var_os("PLUMB_RECALC").is_some() {
+        let script = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/calculator_recalc.py");
+        let st = std::process::Command::new("python3").arg(script).arg(&out).status().expect("python3 runs");
+        assert!(st.success(), "LibreOffice's recalculation of the curve's calculator disagrees with #predict");
+    }
     println!("largest relative difference from scipy 1.17.1: {:.1e} ({})", worst.0, worst.1);
     let _ = std::fs::remove_dir_all(&d);
 }

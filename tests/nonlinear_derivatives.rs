@@ -12,7 +12,9 @@
 //!   PLUMB_REFERENCE_DATA, skipped with a notice when absent): parameters
 //!   within ±10 % of the certified estimates, the columns anywhere in the
 //!   range of the file's data, points where the curve leaves ten times the
-//!   certified curve's range (near a pole of a rational model) set aside.
+//!   certified curve's range (near a pole of a rational model) set aside;
+//! - the symbolic derivatives (`Formula::derivative`) against the forward
+//!   gradient at the same kind of random points.
 
 mod common;
 
@@ -157,7 +159,7 @@ proptest! {
     #![proptest_config(ProptestConfig { cases: 1000, ..ProptestConfig::default() })]
 
     #[test]
-    fn gradients_of_every_nist_model_match_central_differences(
+    fn gradients_of_every_nist_model_match_central_differences_and_the_symbolic_derivatives(
         which in 0usize..27,
         u in prop::collection::vec(-1.0f64..1.0, 9),
         t in prop::collection::vec(0.0f64..1.0, 2),
@@ -176,6 +178,11 @@ proptest! {
             // 1e-6 of the larger of |∂f/∂bⱼ| and |f|/|bⱼ|.
             let tol = 1e-6 * (d.abs() + v.abs() / b[j].abs());
             prop_assert!((d - fd).abs() <= tol, "{}: ∂/∂b{} at b={:?}, x={:?}: exact {}, central difference {}", m.name, j + 1, b, x, d, fd);
+            // The symbolic derivative (what the prediction calculator writes
+            // as a live formula): the same rules applied the other way, so
+            // equal to rounding (common practice).
+            let sym = m.formula.derivative(j).eval(&x, &b);
+            prop_assert!((d - sym).abs() <= 1e-6 * tol, "{}: ∂/∂b{} at b={:?}, x={:?}: forward {}, symbolic {}", m.name, j + 1, b, x, d, sym);
         }
     }
 }

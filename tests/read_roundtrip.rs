@@ -361,7 +361,7 @@ fn the_demo_workbook_reads_as_described() {
     let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo-data/greenhouse.xlsx");
     let book = read_workbook(&path).unwrap_or_else(|e| panic!("{e} (regenerate with `cargo run --example make_demo`)"));
     let names: Vec<&str> = book.sheets.iter().map(|g| g.name.as_str()).collect();
-    assert_eq!(names, ["Weekly", "Plan", "Notes"]);
+    assert_eq!(names, ["Weekly", "Plan", "Drying", "Notes"]);
     let g = &book.sheets[0];
     for (j, h) in ["Week", "Bay", "Light", "CO2", "Irrigation", "Yield"].iter().enumerate() {
         assert_eq!(g.value(0, j as u32), Value::Text(h));
@@ -399,7 +399,18 @@ fn the_demo_workbook_reads_as_described() {
             Value::Text("#linear(Yield, Ligth + CO2)"),
         ]
     );
-    assert!(book.sheets[2].cells().count() >= 3, "a few lines of notes");
+    // The Drying sheet: hours 0 to 24 after watering with a moisture each
+    // (% by volume, invented between 12 and 46), and its two requests.
+    let d = &book.sheets[2];
+    assert_eq!((d.value(0, 0), d.value(0, 1)), (Value::Text("Hours"), Value::Text("Moisture")));
+    for h in 0..=24u32 {
+        assert_eq!(d.value(h + 1, 0), Value::Number(f64::from(h)));
+        assert!(matches!(d.value(h + 1, 1), Value::Number(x) if (10.0..=48.0).contains(&x)), "moisture at hour {h}");
+    }
+    assert_eq!(d.value(26, 0), Value::Empty);
+    assert!(matches!(d.value(1, 3), Value::Text(t) if t.starts_with("#nonlinear(Moisture, a*exp(-k*Hours) + c")));
+    assert_eq!(d.value(2, 3), Value::Text("#predict(drying, Hours=10)"));
+    assert!(book.sheets[3].cells().count() >= 3, "a few lines of notes");
 }
 
 #[test]
