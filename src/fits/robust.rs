@@ -185,8 +185,12 @@ impl Fit for Robust {
         if ignored.len() > NAMED_ROWS {
             out.warnings.push(format!("{} more rows have weight below {NEARLY_IGNORED}", ignored.len() - NAMED_ROWS));
         }
+        let rule = match loss {
+            Loss::Huber => format!("rows more than {tuning} robust scales from the fit are down-weighted, in proportion to how far out they lie"),
+            Loss::Bisquare => format!("every row is down-weighted the more the farther it lies from the fit, and rows more than {tuning} robust scales away get weight 0"),
+        };
         out.notes.push(format!(
-            "{method_label} M-estimate with tuning constant {tuning}: rows more than {tuning} robust scales from the fit are down-weighted; standard errors are Huber's asymptotic ones with his small-sample correction, tests and intervals use t on n − p = {df} degrees of freedom; no R² is given, since the fit does not minimise squared error"
+            "{method_label} M-estimate with tuning constant {tuning}: {rule}; standard errors are Huber's asymptotic ones with his small-sample correction, tests and intervals use t on n − p = {df} degrees of freedom; no R² is given, since the fit does not minimise squared error"
         ));
         out.predictor = Some(Predictor {
             form: PredictorForm::Linear { model_row: model_row(req) },
