@@ -124,7 +124,7 @@ impl Fit for Robust {
         let fit = rob::m_estimate(&problem).map_err(|e| error_of(e, &labels))?;
         let df = fit.df_resid;
         let tq = t_quantile(0.5 + req.level / 2.0, df);
-        let mut out = FitOutcome { standard_errors: Some("Huber (M-estimation)".into()), ..FitOutcome::default() };
+        let mut out = FitOutcome { standard_errors: Some("M-estimation (Huber 1981)".into()), ..FitOutcome::default() };
         let ls = &fit.start;
         for (j, label) in labels.iter().enumerate() {
             let (b, se, b_ls) = (fit.coefficients[j], fit.std_errors[j], ls.coefficients[j]);
