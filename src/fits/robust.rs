@@ -261,6 +261,20 @@ mod tests {
     }
 
     #[test]
+    fn a_tiny_bisquare_tuning_weighs_the_rows_to_zero() {
+        // With c = 0.01 scales nearly every row lies beyond c and gets
+        // weight 0 (direct consequence of the bisquare weight): too few
+        // rows are left to determine the line.
+        let x: Vec<f64> = (0..12).map(f64::from).collect();
+        let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 1.0 + 2.0 * v + [0.3, -0.2, 0.5, -0.6][i % 4]).collect();
+        let mut req = request(y, x, "bisquare");
+        req.options.insert("tuning".into(), OptionValue::Number(0.01));
+        let e = Robust::new().fit(&req).expect_err("rows weighted to zero");
+        assert!(e.message.contains("keep a positive weight") && e.message.contains("down-weighted to zero"), "{}", e.message);
+        assert!(e.help.as_deref().is_some_and(|h| h.contains("method=huber")));
+    }
+
+    #[test]
     fn an_exact_line_for_most_rows_has_zero_scale() {
         let x: Vec<f64> = (0..9).map(f64::from).collect();
         let mut y: Vec<f64> = x.iter().map(|v| 3.0 - v).collect();
