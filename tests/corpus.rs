@@ -228,6 +228,11 @@ fn cases() -> Vec<Case> {
         request_error("duplicate_fit_name", "#linear(Yield, CO2, name=good)", &["another request is already named 'good'"]),
         request_error("path_as_sheet", "#linear(Yield, Light, table='/etc/passwd'!A1:B2)", &["there is no sheet named '/etc/passwd'"]),
         request_error("path_in_range", "#linear('/etc/passwd'!A1:A9, Light)", &["there is no sheet named '/etc/passwd'"]),
+        request_error("robust_bad_method", "#robust(Yield, Light, method=lms)", &["method=lms is not one of the choices", "huber, bisquare"]),
+        request_error("robust_bad_tuning", "#robust(Yield, Light, tuning=0)", &["tuning= must be a positive number of scales"]),
+        request_error("robust_weights", "#robust(Yield, Light, weights=CO2)", &["#robust has no option 'weights'"]),
+        request_error("robust_too_few_rows", "#robust(Yield, Light + CO2, table=Data!A1:C4)", &["3 rows are usable"]),
+        request_error("robust_collinear", "#robust(Yield, Light + 2*Light)", &["is an exact combination of the other terms"]),
         // --- Odd but valid workbooks: fitted, copied faithfully.
         case("merged_title_cells", "xlsx", {
             let mut s = sheet("Data", table(12, vec![good()]).into_iter().map(|(r, c, v)| (r + 2, c, v)).collect());

@@ -152,6 +152,39 @@ pub(crate) fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
 }
 
+/// The design of a request linear in its terms: the labels (intercept
+/// first when there is one), the column-major `n × p` matrix and `p`; an
+/// error when there is nothing to estimate.
+pub(crate) fn design(req: &FitRequest) -> Result<(Vec<String>, Vec<f64>, usize), FitError> {
+    let n = req.rows();
+    let mut labels: Vec<String> = Vec::new();
+    let p = req.columns.len() + usize::from(req.intercept);
+    let mut x = Vec::with_capacity(n * p);
+    if req.intercept {
+        labels.push(INTERCEPT.into());
+        x.extend(std::iter::repeat_n(1.0, n));
+    }
+    for c in &req.columns {
+        labels.push(c.name.clone());
+        x.extend_from_slice(&c.values);
+    }
+    if p == 0 {
+        return Err(FitError::new("the model has no terms and no intercept").help("give at least one term, or intercept=yes"));
+    }
+    Ok((labels, x, p))
+}
+
+/// How a new row becomes the model row of [`design`]: 1 for the
+/// intercept, then the request's columns as sent.
+pub(crate) fn model_row(req: &FitRequest) -> Vec<Formula> {
+    let mut row: Vec<Formula> = Vec::with_capacity(req.columns.len() + 1);
+    if req.intercept {
+        row.push(Formula::Number(1.0));
+    }
+    row.extend((0..req.columns.len()).map(Formula::Column));
+    row
+}
+
 impl Fit for Linear {
     fn spec(&self) -> &FunctionSpec {
         &self.spec
@@ -159,20 +192,7 @@ impl Fit for Linear {
 
     fn fit(&self, req: &FitRequest) -> Result<FitOutcome, FitError> {
         let n = req.rows();
-        let mut labels: Vec<String> = Vec::new();
-        let p = req.columns.len() + usize::from(req.intercept);
-        let mut x = Vec::with_capacity(n * p);
-        if req.intercept {
-            labels.push(INTERCEPT.into());
-            x.extend(std::iter::repeat_n(1.0, n));
-        }
-        for c in &req.columns {
-            labels.push(c.name.clone());
-            x.extend_from_slice(&c.values);
-        }
-        if p == 0 {
-            return Err(FitError::new("the model has no terms and no intercept").help("give at least one term, or intercept=yes"));
-        }
+        let (labels, x, p) = design(req)?;
         let problem = LsProblem {
             x: &x,
             n,
@@ -354,13 +374,8 @@ impl Fit for Linear {
         // What predictions need: the model row (intercept, then the columns
         // as sent), the covariance (column-major p×p from the fit; NaN of
         // aliased terms as 0), the residual spread and its degrees of freedom.
-        let mut model_row: Vec<Formula> = Vec::with_capacity(p);
-        if req.intercept {
-            model_row.push(Formula::Number(1.0));
-        }
-        model_row.extend((0..req.columns.len()).map(Formula::Column));
         out.predictor = Some(Predictor {
-            form: PredictorForm::Linear { model_row },
+            form: PredictorForm::Linear { model_row: model_row(req) },
             covariance: (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
             link: Link::Identity,
             residual_sd: (fit.sigma.is_finite() && fit.sigma > 0.0).then_some(fit.sigma),

@@ -8,6 +8,7 @@
 pub mod linear;
 pub mod nonlinear;
 pub mod polynomial;
+pub mod robust;
 
 use crate::protocol::{FitOutcome, FitRequest, FunctionSpec, Manifest, PROTOCOL_VERSION};
 use std::collections::BTreeMap;
@@ -72,7 +73,7 @@ impl Registry {
     pub fn builtin() -> Self {
         let mut r = Registry::empty();
         let manifest_version = env!("CARGO_PKG_VERSION");
-        for fit in [Box::new(linear::Linear::new()) as Box<dyn Fit>, Box::new(polynomial::Polynomial::new()), Box::new(nonlinear::Nonlinear::new())] {
+        for fit in [Box::new(linear::Linear::new()) as Box<dyn Fit>, Box::new(polynomial::Polynomial::new()), Box::new(nonlinear::Nonlinear::new()), Box::new(robust::Robust::new())] {
             // Invariant: built-in names are distinct and speak our version.
             if let Err(e) = r.register("builtin", PROTOCOL_VERSION, fit) {
                 unreachable!("built-in fits clash ({manifest_version}): {e}");

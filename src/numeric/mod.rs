@@ -14,7 +14,8 @@
 //! (power columns fitted in a centred, scaled basis), [`inference`]
 //! (distributions and tests built on statrs), [`diagnostics`] (residual
 //! checks, collinearity, influence and heteroscedasticity-consistent
-//! standard errors on a finished fit).
+//! standard errors on a finished fit), [`robust`] (M-estimation by
+//! iteratively reweighted least squares).
 
 pub mod dd;
 pub mod diagnostics;
@@ -23,6 +24,7 @@ pub mod lsq;
 pub mod nls;
 pub mod poly;
 pub mod qr;
+pub mod robust;
 
 #[cfg(test)]
 mod tests;
