@@ -249,6 +249,13 @@ pub struct FitRequest {
     /// `intercept`, `weights`, `missing`, `data`, `base`) are not repeated
     /// here: they are the fields above, or already applied to the rows.
     pub options: BTreeMap<String, OptionValue>,
+    /// The values of the column options other than the host's `weights`
+    /// (such as `trials=Tested` of `#logistic`), one per row sent, keyed by
+    /// the option's name as the spec spells it; a row with an unusable cell
+    /// there is left out like any other. Optional in the JSON (absent means
+    /// none), so protocol version 1 is unchanged.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub option_columns: BTreeMap<String, Vec<f64>>,
 }
 
 /// A model expression with parameters, resolved (see [`FitRequest::expression`]).
@@ -1129,6 +1136,7 @@ mod tests {
             level: 0.95,
             expression: None,
             options,
+            option_columns: BTreeMap::new(),
         }
     }
 

@@ -141,6 +141,45 @@ fn term_blocks(req: &FitRequest) -> Vec<(String, Vec<usize>)> {
     out
 }
 
+/// The predictor of a fit linear in its columns: the model row (intercept,
+/// then the columns as sent), the covariance from a column-major `p × p`
+/// buffer (NaN of aliased terms as 0) and the link; no residual spread and
+/// normal quantiles until the caller says otherwise.
+pub(crate) fn linear_predictor(req: &FitRequest, covariance: &[f64], link: Link) -> Predictor {
+    let p = req.columns.len() + usize::from(req.intercept);
+    let mut model_row: Vec<Formula> = Vec::with_capacity(p);
+    if req.intercept {
+        model_row.push(Formula::Number(1.0));
+    }
+    model_row.extend((0..req.columns.len()).map(Formula::Column));
+    Predictor {
+        form: PredictorForm::Linear { model_row },
+        covariance: (0..p).map(|i| (0..p).map(|j| covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
+        link,
+        residual_sd: None,
+        df: None,
+    }
+}
+
+/// The design of a request: the coefficient labels and the `n × p`
+/// column-major matrix (a column of ones first with an intercept, then the
+/// columns as sent).
+pub(crate) fn design_of(req: &FitRequest) -> (Vec<String>, Vec<f64>) {
+    let n = req.rows();
+    let p = req.columns.len() + usize::from(req.intercept);
+    let mut labels: Vec<String> = Vec::with_capacity(p);
+    let mut x = Vec::with_capacity(n * p);
+    if req.intercept {
+        labels.push(INTERCEPT.into());
+        x.extend(std::iter::repeat_n(1.0, n));
+    }
+    for c in &req.columns {
+        labels.push(c.name.clone());
+        x.extend_from_slice(&c.values);
+    }
+    (labels, x)
+}
+
 /// `Some(x)` when finite.
 pub(crate) fn finite(x: f64) -> Option<f64> {
     x.is_finite().then_some(x)
@@ -153,17 +192,8 @@ impl Fit for Linear {
 
     fn fit(&self, req: &FitRequest) -> Result<FitOutcome, FitError> {
         let n = req.rows();
-        let mut labels: Vec<String> = Vec::new();
-        let p = req.columns.len() + usize::from(req.intercept);
-        let mut x = Vec::with_capacity(n * p);
-        if req.intercept {
-            labels.push(INTERCEPT.into());
-            x.extend(std::iter::repeat_n(1.0, n));
-        }
-        for c in &req.columns {
-            labels.push(c.name.clone());
-            x.extend_from_slice(&c.values);
-        }
+        let (labels, x) = design_of(req);
+        let p = labels.len();
         if p == 0 {
             return Err(FitError::new("the model has no terms and no intercept").help("give at least one term, or intercept=yes"));
         }
@@ -306,17 +336,10 @@ impl Fit for Linear {
         // What predictions need: the model row (intercept, then the columns
         // as sent), the covariance (column-major p×p from the fit; NaN of
         // aliased terms as 0), the residual spread and its degrees of freedom.
-        let mut model_row: Vec<Formula> = Vec::with_capacity(p);
-        if req.intercept {
-            model_row.push(Formula::Number(1.0));
-        }
-        model_row.extend((0..req.columns.len()).map(Formula::Column));
         out.predictor = Some(Predictor {
-            form: PredictorForm::Linear { model_row },
-            covariance: (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
-            link: Link::Identity,
             residual_sd: (fit.sigma.is_finite() && fit.sigma > 0.0).then_some(fit.sigma),
             df: (fit.df_resid > 0.0).then_some(fit.df_resid),
+            ..linear_predictor(req, &fit.covariance, Link::Identity)
         });
         // AIC and BIC count the estimated coefficients (the rank), as the
         // statistics above do.
@@ -529,6 +552,7 @@ mod tests {
             level: 0.95,
             expression: None,
             options,
+            option_columns: BTreeMap::new(),
         }
     }
 

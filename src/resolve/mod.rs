@@ -363,10 +363,21 @@ pub fn resolve(
     let roles = Roles::of(&here, spec, req, &bound)?;
     let (response_expr, term_exprs) = (roles.response, &roles.terms);
     let expression_columns: Vec<&Expr> = roles.expression.iter().flat_map(|x| x.columns.iter().map(|c| &c.expr)).collect();
+    // Column options other than the host's (`trials=Tested`): read as
+    // numbers over the frame and sent in `FitRequest::option_columns`.
+    let option_exprs: Vec<(&str, &Expr)> = bound
+        .options
+        .iter()
+        .filter(|o| !HOST_OPTIONS.contains(&o.name.as_str()))
+        .filter_map(|o| match &o.value {
+            BoundValue::Column(e) => Some((o.name.as_str(), e)),
+            _ => None,
+        })
+        .collect();
 
     // 2. The frame: the data table, or the rows of the ranges used.
     let mut names = Vec::new();
-    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()) {
+    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()).chain(option_exprs.iter().map(|o| o.1)) {
         referenced_names(e, &mut names);
     }
     let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).chain(expression_columns.iter().copied()).collect();
@@ -398,10 +409,15 @@ pub fn resolve(
         Some(w) => Some(ctx.numeric(w, &frame)?),
         None => None,
     };
+    // An option column's gaps leave rows out as a term's do.
+    let mut option_columns = Vec::new();
+    for (name, e) in &option_exprs {
+        option_columns.push((name.to_string(), e.span, Factor::Num(typed(text, e.span), ctx.numeric(e, &frame)?)));
+    }
 
     // 4. Missing rows.
     let design::Rows { keep, left_out } =
-        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
+        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors).chain(&option_columns), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
 
     // 5. Model columns on the kept rows: the expression's columns, then the
     // terms' columns.
@@ -446,7 +462,19 @@ pub fn resolve(
             formula: x.formula.clone(),
             parameters: x.parameters.iter().map(|p| p.0.clone()).collect(),
         }),
-        options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
+        options: bound
+            .values
+            .iter()
+            .filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str()) && !option_exprs.iter().any(|o| o.0 == k.as_str()))
+            .map(|(k, v)| (k.clone(), v.clone()))
+            .collect(),
+        option_columns: option_columns
+            .iter()
+            .filter_map(|(name, _, f)| match f {
+                Factor::Num(_, v) => Some((name.clone(), pick(&v.values))),
+                _ => None,
+            })
+            .collect(),
     };
     let placement = frame.placement(&keep);
     // A recipe rebuilds the request's columns from new values: the terms'
