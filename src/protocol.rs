@@ -13,6 +13,11 @@ use std::collections::BTreeMap;
 /// The protocol version this host speaks.
 pub const PROTOCOL_VERSION: u32 = 1;
 
+/// The option the host sends a fit that declares an `event` option when its
+/// response is text of two levels: the level coded 1 (the other is 0),
+/// chosen by `event="…"` or by default (the later in alphabetical order).
+pub const EVENT_LEVEL: &str = "event_level";
+
 /// One message between the host and a plugin: what travels, one JSON
 /// object per line, over an external plugin's standard input and output.
 ///

@@ -264,3 +264,67 @@ fn separation_and_bad_responses_are_errors_in_plain_words() {
     let m = error_of("logistic-trials", &["x", "k", "n"], &[x, vec![1.0, 2.0, 5.0, 1.0, 0.0, 2.0, 1.0, 3.0], vec![3.0; 8]], "#logistic(k, x, trials=n)");
     assert!(m.contains("row 4 of Data") && m.contains("from 0 to its 3 trials"), "{m}");
 }
+
+#[test]
+fn text_and_boolean_responses_code_the_event_as_said() {
+    let refs = reference();
+    let want = &refs["spector"];
+    let (_, cols) = spector();
+    let (gpa, tuce, psi, grade) = (&cols[1], &cols[2], &cols[3], &cols[4]);
+    let d = scratch("logistic-text");
+    let input = d.join("book.xlsx");
+    let mut wb = pinned_workbook();
+    let ws = wb.add_worksheet();
+    ws.set_name("Course").unwrap();
+    for (j, h) in ["GPA", "TUCE", "PSI", "Better", "Word", "Flag", "Three"].iter().enumerate() {
+        ws.write_string(0, j as u16, *h).unwrap();
+    }
+    for i in 0..grade.len() {
+        let r = i as u32 + 1;
+        ws.write_number(r, 0, gpa[i]).unwrap();
+        ws.write_number(r, 1, tuce[i]).unwrap();
+        ws.write_number(r, 2, psi[i]).unwrap();
+        let up = grade[i] == 1.0;
+        ws.write_string(r, 3, if up { "better" } else { "same" }).unwrap();
+        ws.write_string(r, 4, if up { "yes" } else { "no" }).unwrap();
+        ws.write_boolean(r, 5, up).unwrap();
+        ws.write_string(r, 6, ["a", "b", "c"][i % 3]).unwrap();
+    }
+    let requests = [
+        "#logistic(Better, GPA + TUCE + PSI, event=\"better\", name=chosen)",
+        "#logistic(Word, GPA + TUCE + PSI, name=default)",
+        "#logistic(Flag, GPA + TUCE + PSI, name=flag)",
+        "#logistic(Better, GPA + TUCE + PSI, name=flipped)",
+        "#logistic(Three, GPA + TUCE + PSI)",
+        "#logistic(Better, GPA, event=\"worse\")",
+        "#logistic(Flag, GPA, event=\"yes\")",
+    ];
+    for (i, r) in requests.iter().enumerate() {
+        ws.write_string(i as u32 + 1, 9, *r).unwrap();
+    }
+    wb.save(&input).unwrap();
+    let out = d.join("out.xlsx");
+    let s = run_to(&input, &out);
+    let mut worst = Worst::new(TOLERANCE, 1e-6, "statsmodels 0.15.0");
+    for fit in ["chosen", "default", "flag"] {
+        for c in output::coefficients(&out, fit) {
+            worst.check(c.estimate, &want["estimates"][&c.term], &format!("{fit}: estimate of {}", c.term));
+        }
+    }
+    let r = |i: usize| &s.reports[i];
+    let notes = &r(1).outcome.as_ref().expect("an outcome").notes;
+    assert!(notes.iter().any(|n| n.contains("the event is Word = \"yes\"")), "{notes:?}");
+    // The default event of better/same is "same" (later in the alphabet):
+    // every coefficient changes sign.
+    for c in output::coefficients(&out, "flipped") {
+        worst.check(c.estimate.map(|b| -b), &want["estimates"][&c.term], &format!("flipped: minus the estimate of {}", c.term));
+    }
+    assert_eq!(r(4).status, Status::Error);
+    assert!(r(4).messages.iter().any(|m| m.contains("has 3 levels") && m.contains("exactly two")), "{:?}", r(4).messages);
+    assert_eq!(r(5).status, Status::Error);
+    assert!(r(5).messages.iter().any(|m| m.contains("event=\"worse\" is not a level")), "{:?}", r(5).messages);
+    // event= on a numeric (here boolean) response is refused, not ignored.
+    assert_eq!(r(6).status, Status::Error);
+    assert!(r(6).messages.iter().any(|m| m.contains("Flag holds numbers")), "{:?}", r(6).messages);
+    let _ = std::fs::remove_dir_all(&d);
+}

@@ -9,7 +9,7 @@
 use super::linear::{count, dec, design_of, finite, linear_predictor, param, pval, shared_options, stat, INTERCEPT};
 use super::{Fit, FitError};
 use crate::numeric::logistic::{self as lg, LogisticError, LogisticProblem};
-use crate::protocol::{Coefficient, FitOutcome, FitRequest, FunctionSpec, Likelihood, Link, OptionValue, ParamKind, ParamSpec, RowColumn, RowRole};
+use crate::protocol::{Coefficient, EVENT_LEVEL, FitOutcome, FitRequest, FunctionSpec, Likelihood, Link, OptionValue, ParamKind, ParamSpec, RowColumn, RowRole};
 
 /// Diagnostics heading: rows, events and the likelihood.
 pub const GROUP_DATA: &str = "Rows and events";
@@ -31,7 +31,7 @@ impl Logistic {
     /// The fit with its spec.
     pub fn new() -> Self {
         let positional = vec![
-            ParamSpec { required: true, ..param("response", ParamKind::Column, None, &[], "the yes-or-no column: 0/1 or TRUE/FALSE, 1 (TRUE) counting as the event; with trials=, the number of events") },
+            ParamSpec { required: true, ..param("response", ParamKind::Column, None, &[], "the yes-or-no column: 0/1 or TRUE/FALSE (1 or TRUE is the event), or text of two levels (see event=); with trials=, the number of events") },
             ParamSpec { required: true, ..param("terms", ParamKind::Terms, None, &[], "predictor terms joined by +, such as Distance + Stops") },
         ];
         let mut options: Vec<ParamSpec> = shared_options().into_iter().filter(|o| o.name != "errors").collect();
@@ -40,6 +40,7 @@ impl Logistic {
                 o.help = "a column of frequency weights: how many times each row counts".into();
             }
         }
+        options.push(param("event", ParamKind::Text, None, &[], "the level of a text response counted as the event, such as event=\"pass\" (default: the later of the two levels in alphabetical order)"));
         options.push(param("trials", ParamKind::Column, None, &[], "a column of trial counts: the response is then the number of events out of that many trials per row"));
         options.push(param("cutoff", ParamKind::Number, Some("0.5"), &[], "the fitted probability at or above which a row is classified as an event, for the classification table"));
         Logistic {
@@ -68,6 +69,13 @@ impl Fit for Logistic {
         let n = req.rows();
         let y = &req.response.values;
         let name = &req.response.name;
+        let event_level = match req.options.get(EVENT_LEVEL) {
+            Some(OptionValue::Text(l)) => Some(l.clone()),
+            _ => None,
+        };
+        if event_level.is_none() && req.options.contains_key("event") {
+            return Err(FitError::new(format!("event= names a level of a text response, but {name} holds numbers")).help("with numbers, 1 (or TRUE) is the event; leave out event=, or recode the column"));
+        }
         let trials: Vec<f64> = match req.option_columns.get("trials") {
             Some(t) => {
                 for (i, (&k, &m)) in y.iter().zip(t).enumerate() {
@@ -231,7 +239,10 @@ impl Fit for Logistic {
             out.statistics.push(dec("max_leverage", "Largest leverage", "Rows that stand out", v, 4));
             out.statistic_rows.insert("max_leverage".into(), i);
         }
-        out.notes.push(format!("the event is {name} = 1 (TRUE counts as 1); probabilities are those of the event"));
+        out.notes.push(match &event_level {
+            Some(l) => format!("the event is {name} = \"{l}\"; probabilities are those of the event"),
+            None => format!("the event is {name} = 1 (TRUE counts as 1); probabilities are those of the event"),
+        });
         out.notes.push("standard errors from the information matrix; z tests and Wald intervals on the normal distribution".into());
         out.predictor = Some(linear_predictor(req, &fit.covariance, Link::Logit));
         out.likelihood = Some(Likelihood { log_likelihood: fit.log_likelihood, parameters: k, observations: obs });
