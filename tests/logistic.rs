@@ -88,7 +88,7 @@ fn spector_fit_rows_and_predictions_match_statsmodels() {
     let points = want["predictions"].as_array().unwrap();
     let plan_heads = ["GPA", "TUCE", "PSI"];
     let plan_cols: Vec<Vec<f64>> = plan_heads.iter().map(|h| points.iter().map(|p| p["point"][*h].as_f64().unwrap()).collect()).collect();
-    let requests = ["#logistic(GRADE, GPA + TUCE + PSI, name=grade)", "#predict(grade, rows=Plan!A1:C4)"];
+    let requests = ["#logistic(GRADE, GPA + TUCE + PSI, name=grade)", "#predict(grade, rows=Plan!A1:C4)", "#logistic(GRADE, GPA + PSI, name=small)", "#compare(small, grade)"];
     let d = scratch("logistic-spector");
     let h: Vec<&str> = headers.iter().map(String::as_str).collect();
     let input = book(&d, "Course", &h, &cols, &requests, Some((&plan_heads, &plan_cols)));
@@ -157,6 +157,13 @@ fn spector_fit_rows_and_predictions_match_statsmodels() {
             worst.check(num(&row[col(h)]), &w[key], &format!("{key} at {}", w["point"]));
         }
     }
+    // #compare of two logistic fits: AIC and BIC from the likelihood, no
+    // least-squares figures and no F test (they are not least squares).
+    let Some(plumb::report::HostOutcome::Comparison(cmp)) = &s.reports[3].host else { panic!("#compare gave no comparison") };
+    let full = cmp.fits.iter().find(|f| f.name == "grade").expect("the full fit is compared");
+    worst.check(Some(full.aic), &want["aic"], "AIC in #compare");
+    worst.check(Some(full.bic), &want["bic"], "BIC in #compare");
+    assert!(full.r_squared.is_nan() && cmp.nested.is_empty(), "{cmp:?}");
     println!("largest difference from statsmodels 0.15.0: {:.1e} ({})", worst.difference, worst.what);
     let _ = std::fs::remove_dir_all(&d);
 }
