@@ -13,6 +13,11 @@ use std::collections::BTreeMap;
 /// The protocol version this host speaks.
 pub const PROTOCOL_VERSION: u32 = 1;
 
+/// The option the host sends a fit that declares an `event` option when its
+/// response is text of two levels: the level coded 1 (the other is 0),
+/// chosen by `event="…"` or by default (the later in alphabetical order).
+pub const EVENT_LEVEL: &str = "event_level";
+
 /// One message between the host and a plugin: what travels, one JSON
 /// object per line, over an external plugin's standard input and output.
 ///
@@ -249,6 +254,13 @@ pub struct FitRequest {
     /// `intercept`, `weights`, `missing`, `data`, `base`) are not repeated
     /// here: they are the fields above, or already applied to the rows.
     pub options: BTreeMap<String, OptionValue>,
+    /// The values of the column options other than the host's `weights`
+    /// (such as `trials=Tested` of `#logistic`), one per row sent, keyed by
+    /// the option's name as the spec spells it; a row with an unusable cell
+    /// there is left out like any other. Optional in the JSON (absent means
+    /// none), so protocol version 1 is unchanged.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub option_columns: BTreeMap<String, Vec<f64>>,
 }
 
 /// A model expression with parameters, resolved (see [`FitRequest::expression`]).
@@ -1304,6 +1316,7 @@ mod tests {
             level: 0.95,
             expression: None,
             options,
+            option_columns: BTreeMap::new(),
         }
     }
 

@@ -13,7 +13,7 @@
 
 mod common;
 
-use common::data::{csv, relative_difference};
+use common::data::{csv, relative_difference, Worst};
 use common::output::{self, num, text};
 use common::run::{run_to, scratch};
 use common::workbooks::pinned_workbook;
@@ -25,21 +25,6 @@ const TOLERANCE: f64 = 1e-10;
 
 fn reference() -> Json {
     serde_json::from_str(include_str!("data/engel_nonlinear.json")).expect("tests/data/engel_nonlinear.json is JSON")
-}
-
-/// The largest relative difference seen, for the printed summary.
-struct Worst(f64, String);
-
-impl Worst {
-    fn check(&mut self, got: Option<f64>, want: &Json, what: &str) {
-        let want = want.as_f64().unwrap_or_else(|| panic!("{what}: no reference figure"));
-        let got = got.unwrap_or_else(|| panic!("{what}: no number in the output (scipy 1.17.1 gives {want})"));
-        let rel = relative_difference(got, want);
-        assert!(rel <= TOLERANCE, "{what}: plumb {got}, scipy 1.17.1 {want} (relative difference {rel:.1e})");
-        if rel > self.0 {
-            *self = Worst(rel, what.to_string());
-        }
-    }
 }
 
 #[test]
@@ -79,7 +64,7 @@ fn engel_power_curve_and_predictions_match_scipy() {
     for r in &s.reports {
         assert_ne!(r.status, Status::Error, "{}: {:?}", r.text, r.messages);
     }
-    let mut worst = Worst(0.0, String::new());
+    let mut worst = Worst::new(TOLERANCE, 0.0, "scipy 1.17.1");
 
     // Parameters, standard errors, RSS and residual SD.
     let coefs = output::coefficients(&out, "engel");
@@ -158,6 +143,6 @@ fn engel_power_curve_and_predictions_match_scipy() {
         let st = std::process::Command::new("python3").arg(script).arg(&out).status().expect("python3 runs");
         assert!(st.success(), "LibreOffice's recalculation of the curve's calculator disagrees with #predict");
     }
-    println!("largest relative difference from scipy 1.17.1: {:.1e} ({})", worst.0, worst.1);
+    println!("largest relative difference from scipy 1.17.1: {:.1e} ({})", worst.difference, worst.what);
     let _ = std::fs::remove_dir_all(&d);
 }

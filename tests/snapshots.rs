@@ -130,3 +130,21 @@ fn robust_with_predict() {
     );
     snapshot_of(&path, "robust-predict");
 }
+
+/// `#logistic` with `#predict` on it. Invented data: 20 delivery rounds,
+/// the distance driven (km) and whether the round ran late (1) — late more
+/// often on long rounds, with overlap so there is no separation.
+#[test]
+fn logistic_with_predict() {
+    let km = [12.0, 15.0, 18.0, 20.0, 22.0, 25.0, 27.0, 30.0, 31.0, 33.0, 35.0, 38.0, 40.0, 42.0, 45.0, 47.0, 50.0, 52.0, 55.0, 60.0];
+    let late = [0.0, 0.0, 0.0, 1.0, 0.0, 0.0, 0.0, 1.0, 0.0, 1.0, 0.0, 1.0, 1.0, 0.0, 1.0, 1.0, 1.0, 0.0, 1.0, 1.0];
+    let path = tmp("logistic-predict");
+    write_mixed_table(
+        &path,
+        "Rounds",
+        &["Km", "Late"],
+        &[Col::Num(km.iter().map(|v| Some(*v)).collect()), Col::Num(late.iter().map(|v| Some(*v)).collect())],
+        &[(1, 4, "#logistic(Late, Km, name=late)"), (2, 4, "#predict(late, Km=36)")],
+    );
+    snapshot_of(&path, "logistic-predict");
+}

@@ -147,18 +147,28 @@ fn term_blocks(req: &FitRequest) -> Vec<(String, Vec<usize>)> {
     out
 }
 
-/// `Some(x)` when finite.
-pub(crate) fn finite(x: f64) -> Option<f64> {
-    x.is_finite().then_some(x)
+/// The predictor of a fit linear in its columns: the model row (intercept,
+/// then the columns as sent), the covariance from a column-major `p × p`
+/// buffer (NaN of aliased terms as 0) and the link; no residual spread and
+/// normal quantiles until the caller says otherwise.
+pub(crate) fn linear_predictor(req: &FitRequest, covariance: &[f64], link: Link) -> Predictor {
+    let p = req.columns.len() + usize::from(req.intercept);
+    Predictor {
+        form: PredictorForm::Linear { model_row: model_row(req) },
+        covariance: (0..p).map(|i| (0..p).map(|j| covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
+        link,
+        residual_sd: None,
+        df: None,
+    }
 }
 
-/// The design of a request linear in its terms: the labels (intercept
-/// first when there is one), the column-major `n × p` matrix and `p`; an
-/// error when there is nothing to estimate.
-pub(crate) fn design(req: &FitRequest) -> Result<(Vec<String>, Vec<f64>, usize), FitError> {
+/// The design of a request: the coefficient labels and the `n × p`
+/// column-major matrix (a column of ones first with an intercept, then the
+/// columns as sent).
+pub(crate) fn design_of(req: &FitRequest) -> (Vec<String>, Vec<f64>) {
     let n = req.rows();
-    let mut labels: Vec<String> = Vec::new();
     let p = req.columns.len() + usize::from(req.intercept);
+    let mut labels: Vec<String> = Vec::with_capacity(p);
     let mut x = Vec::with_capacity(n * p);
     if req.intercept {
         labels.push(INTERCEPT.into());
@@ -168,6 +178,20 @@ pub(crate) fn design(req: &FitRequest) -> Result<(Vec<String>, Vec<f64>, usize),
         labels.push(c.name.clone());
         x.extend_from_slice(&c.values);
     }
+    (labels, x)
+}
+
+/// `Some(x)` when finite.
+pub(crate) fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+/// The design of a request linear in its terms: the labels (intercept
+/// first when there is one), the column-major `n × p` matrix and `p`; an
+/// error when there is nothing to estimate.
+pub(crate) fn design(req: &FitRequest) -> Result<(Vec<String>, Vec<f64>, usize), FitError> {
+    let (labels, x) = design_of(req);
+    let p = labels.len();
     if p == 0 {
         return Err(FitError::new("the model has no terms and no intercept").help("give at least one term, or intercept=yes"));
     }
@@ -375,11 +399,9 @@ impl Fit for Linear {
         // as sent), the covariance (column-major p×p from the fit; NaN of
         // aliased terms as 0), the residual spread and its degrees of freedom.
         out.predictor = Some(Predictor {
-            form: PredictorForm::Linear { model_row: model_row(req) },
-            covariance: (0..p).map(|i| (0..p).map(|j| fit.covariance[j * p + i]).map(|v| if v.is_finite() { v } else { 0.0 }).collect()).collect(),
-            link: Link::Identity,
             residual_sd: (fit.sigma.is_finite() && fit.sigma > 0.0).then_some(fit.sigma),
             df: (fit.df_resid > 0.0).then_some(fit.df_resid),
+            ..linear_predictor(req, &fit.covariance, Link::Identity)
         });
         // AIC and BIC count the estimated coefficients (the rank), as the
         // statistics above do.
@@ -592,6 +614,7 @@ mod tests {
             level: 0.95,
             expression: None,
             options,
+            option_columns: BTreeMap::new(),
         }
     }
 

@@ -1,11 +1,12 @@
 //! Fits and the registry that serves them.
 //!
 //! Every function of the fit language is served by a [`Fit`] registered
-//! under its name. The built-in fits (`linear.rs`, `polynomial.rs`, `nonlinear.rs`) register exactly as an
+//! under its name. The built-in fits (`linear.rs`, `polynomial.rs`, `nonlinear.rs`, `logistic.rs`) register exactly as an
 //! external plugin would, so the rest of the program never knows which kind
 //! answered a request.
 
 pub mod linear;
+pub mod logistic;
 pub mod nonlinear;
 pub mod polynomial;
 pub mod robust;
@@ -73,7 +74,7 @@ impl Registry {
     pub fn builtin() -> Self {
         let mut r = Registry::empty();
         let manifest_version = env!("CARGO_PKG_VERSION");
-        for fit in [Box::new(linear::Linear::new()) as Box<dyn Fit>, Box::new(polynomial::Polynomial::new()), Box::new(nonlinear::Nonlinear::new()), Box::new(robust::Robust::new())] {
+        for fit in [Box::new(linear::Linear::new()) as Box<dyn Fit>, Box::new(polynomial::Polynomial::new()), Box::new(nonlinear::Nonlinear::new()), Box::new(robust::Robust::new()), Box::new(logistic::Logistic::new())] {
             // Invariant: built-in names are distinct and speak our version.
             if let Err(e) = r.register("builtin", PROTOCOL_VERSION, fit) {
                 unreachable!("built-in fits clash ({manifest_version}): {e}");

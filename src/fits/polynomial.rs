@@ -146,6 +146,7 @@ mod tests {
             level: 0.95,
             expression: None,
             options,
+            option_columns: BTreeMap::new(),
         }
     }
 

@@ -229,6 +229,7 @@ mod tests {
             weights: None,
             level: 0.95,
             expression: None,
+            option_columns: std::collections::BTreeMap::new(),
             options,
         }
     }

@@ -20,6 +20,7 @@
 pub mod dd;
 pub mod diagnostics;
 pub mod inference;
+pub mod logistic;
 pub mod lsq;
 pub mod nls;
 pub mod poly;

@@ -20,7 +20,7 @@ pub use self::bind::{bind, is_catch_all, parameter_group, Bound, RENAMED_OPTIONS
 use self::eval::{referenced_names, Factor};
 use crate::cells::{CellAddress, CellRange, Grid, Value, Workbook};
 use crate::problems::Problem;
-use crate::protocol::{Column, FitRequest, FunctionSpec, ModelExpression, OptionValue, PROTOCOL_VERSION};
+use crate::protocol::{Column, FitRequest, FunctionSpec, ModelExpression, OptionValue, EVENT_LEVEL, PROTOCOL_VERSION};
 use crate::recipe::Recipe;
 use crate::syntax::{self, BinOp, Expr, ExprKind, RangeRef, Request, Span};
 use std::collections::{BTreeMap, HashSet};
@@ -191,6 +191,60 @@ const WEIGHTS: &str = "weights";
 const GAPS: &str = "gaps";
 const TABLE: &str = "table";
 const AGAINST: &str = "against";
+
+/// The option of a yes-or-no fit naming the level of a text response
+/// counted as the event (`event="pass"`).
+const EVENT: &str = "event";
+
+/// A text response of exactly two levels as 1 (the event) and 0, and the
+/// event's level: `event="…"` when given, else the later of the two in
+/// alphabetical order (case folded), so `no`/`yes` and `fail`/`pass` count
+/// `yes` and `pass`.
+fn two_levels(ctx: &Ctx, c: &eval::Cat, e: &Expr, bound: &Bound) -> Result<(eval::Num, String), Problem> {
+    let mut levels: Vec<&String> = c.levels.iter().flatten().collect();
+    levels.sort_by_key(|l| l.to_lowercase());
+    levels.dedup_by_key(|l| l.to_lowercase());
+    let name = typed(ctx.text, e.span);
+    if levels.len() != 2 {
+        let shown: Vec<String> = levels.iter().take(5).map(|l| format!("\"{l}\"")).collect();
+        return Err(ctx
+            .err(e.span, format!("the response '{name}' has {} level{} ({}); a yes-or-no response needs exactly two", levels.len(), if levels.len() == 1 { "" } else { "s" }, shown.join(", ")))
+            .help("use a column with two values, such as yes and no, or code the event as 1 and the rest as 0"));
+    }
+    let level = match bound.values.get(EVENT) {
+        Some(OptionValue::Text(t)) => match levels.iter().find(|l| l.eq_ignore_ascii_case(t.trim())) {
+            Some(l) => (*l).clone(),
+            None => {
+                let span = bound.option(EVENT).map(|o| o.value_span).unwrap_or(e.span);
+                return Err(ctx
+                    .err(span, format!("event=\"{t}\" is not a level of '{name}', whose levels are \"{}\" and \"{}\"", levels[0], levels[1]))
+                    .help("name one of the two levels, in quotes"));
+            }
+        },
+        Some(OptionValue::Number(x)) => {
+            let span = bound.option(EVENT).map(|o| o.value_span).unwrap_or(e.span);
+            return Err(ctx.err(span, format!("event={x} is not a level of '{name}', whose levels are \"{}\" and \"{}\"", levels[0], levels[1])).help("name one of the two levels, in quotes"));
+        }
+        _ => levels[1].clone(),
+    };
+    let key = level.to_lowercase();
+    let mut why = Vec::with_capacity(c.levels.len());
+    let values = c
+        .levels
+        .iter()
+        .map(|l| match l {
+            Some(l) => {
+                why.push(eval::Why::Ok);
+                f64::from(u8::from(l.to_lowercase() == key))
+            }
+            None => {
+                why.push(eval::Why::Blank);
+                f64::NAN
+            }
+        })
+        .collect();
+    Ok((eval::Num { values, why, first_bad: BTreeMap::new(), power: None }, level))
+}
 
 /// Where a request is: its cell and text, for errors with a caret.
 #[derive(Clone, Copy)]
@@ -363,18 +417,35 @@ pub fn resolve(
     let roles = Roles::of(&here, spec, req, &bound)?;
     let (response_expr, term_exprs) = (roles.response, &roles.terms);
     let expression_columns: Vec<&Expr> = roles.expression.iter().flat_map(|x| x.columns.iter().map(|c| &c.expr)).collect();
+    // Column options other than the host's (`trials=Tested`): read as
+    // numbers over the frame and sent in `FitRequest::option_columns`.
+    let option_exprs: Vec<(&str, &Expr)> = bound
+        .options
+        .iter()
+        .filter(|o| !HOST_OPTIONS.contains(&o.name.as_str()))
+        .filter_map(|o| match &o.value {
+            BoundValue::Column(e) => Some((o.name.as_str(), e)),
+            _ => None,
+        })
+        .collect();
 
     // 2. The frame: the data table, or the rows of the ranges used.
     let mut names = Vec::new();
-    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()) {
+    for e in [response_expr].into_iter().chain(term_exprs).chain(host.weights).chain(expression_columns.iter().copied()).chain(option_exprs.iter().map(|o| o.1)) {
         referenced_names(e, &mut names);
     }
     let columns: Vec<&Expr> = [response_expr].into_iter().chain(term_exprs).chain(expression_columns.iter().copied()).collect();
     let frame = ctx.frame(req, host.data, &names, &columns, requests)?;
 
     // 3. Evaluate.
+    let mut event_level = None;
     let response = match ctx.eval(response_expr, &frame)? {
         Factor::Num(_, v) => v,
+        Factor::Cat(c) if spec.option(EVENT).is_some() => {
+            let (num, level) = two_levels(&ctx, &c, response_expr, &bound)?;
+            event_level = Some(level);
+            num
+        }
         _ => {
             return Err(ctx
                 .err(response_expr.span, format!("the response '{}' is a text column; #{} needs numbers", typed(text, response_expr.span), spec.name))
@@ -398,10 +469,15 @@ pub fn resolve(
         Some(w) => Some(ctx.numeric(w, &frame)?),
         None => None,
     };
+    // An option column's gaps leave rows out as a term's do.
+    let mut option_columns = Vec::new();
+    for (name, e) in &option_exprs {
+        option_columns.push((name.to_string(), e.span, Factor::Num(typed(text, e.span), ctx.numeric(e, &frame)?)));
+    }
 
     // 4. Missing rows.
     let design::Rows { keep, left_out } =
-        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
+        design::usable_rows(&ctx, &frame, &response, inputs.iter().chain(&factors).chain(&option_columns), weights.as_ref().map(|w| (w, host.weights)), bound.end, host.stop_on_missing, req.span)?;
 
     // 5. Model columns on the kept rows: the expression's columns, then the
     // terms' columns.
@@ -446,7 +522,21 @@ pub fn resolve(
             formula: x.formula.clone(),
             parameters: x.parameters.iter().map(|p| p.0.clone()).collect(),
         }),
-        options: bound.values.iter().filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str())).map(|(k, v)| (k.clone(), v.clone())).collect(),
+        options: bound
+            .values
+            .iter()
+            .filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str()) && !option_exprs.iter().any(|o| o.0 == k.as_str()))
+            .filter(|(k, _)| event_level.is_none() || k.as_str() != EVENT)
+            .map(|(k, v)| (k.clone(), v.clone()))
+            .chain(event_level.iter().map(|l| (EVENT_LEVEL.to_string(), OptionValue::Text(l.clone()))))
+            .collect(),
+        option_columns: option_columns
+            .iter()
+            .filter_map(|(name, _, f)| match f {
+                Factor::Num(_, v) => Some((name.clone(), pick(&v.values))),
+                _ => None,
+            })
+            .collect(),
     };
     let placement = frame.placement(&keep);
     // A recipe rebuilds the request's columns from new values: the terms'
