@@ -197,6 +197,13 @@ fn cases() -> Vec<Case> {
         ),
         request_error("one_data_row", "#linear(Yield, Light, table=Data!A1:C2)", &["1 rows are usable", "needs more rows than parameters"]),
         request_error("fewer_rows_than_parameters", "#linear(Yield, Light + CO2, table=Data!A1:C3)", &["2 rows are usable", "3 parameters"]),
+        // #nonlinear's bad input (issue 10), through the binary.
+        request_error("curve_parameter_never_used", "#nonlinear(Yield, a*Light, start(a=1, b=2))", &["b"]),
+        request_error("curve_name_neither_parameter_nor_column", "#nonlinear(Yield, a*Ligth, start(a=1))", &["Ligth", "Light"]),
+        request_error("curve_start_value_missing", "#nonlinear(Yield, a*exp(-k*Light), start(a=1))", &["k has no starting value"]),
+        request_error("curve_undefined_at_the_start", "#nonlinear(Yield, a*log(Light - b), start(a=1, b=10))", &["the model is not a number at the starting values in row 2 of Data"]),
+        request_error("curve_singular_at_the_start", "#nonlinear(Yield, a*b*Light + c, start(a=0, b=1, c=1))", &["does not change with b"]),
+        request_error("curve_no_convergence", "#nonlinear(Yield, a*exp(-k*Light) + c, start(a=1, k=0.1, c=1), limit=2)", &["no convergence within limit=2 iterations: it stopped at start(a=", "paste them over start(…)"]),
         case("text_in_numeric_column", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, Light)")), (4, 0, t("n/a")), (7, 0, t("broken sensor"))]))]), 0, &["2 rows left out: 2 with text in a numeric column (first Data!A5)"], true),
         case("constant_column", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (0, 3, t("Bays")), (1, 6, t("#linear(Yield, Light + Bays)"))].into_iter().chain((1..=12).map(|r| (r, 3, C::N(4.0)))).collect()))]), 0, &["collinear"], true),
         case("collinear_columns", "xlsx", xlsx(&[sheet("Data", table(12, vec![good(), (1, 6, t("#linear(Yield, Light + Double, name=twice)")), (0, 3, t("Double"))].into_iter().chain((1..=12).map(|r| (r, 3, C::F("A1*2", "0")))).collect()))]), 0, &["collinear"], true),
