@@ -35,40 +35,35 @@ POINTS = [
     {"AIRFLOW": 90.0, "WATERTEMP": 30.0, "ACIDCONC": 95.0},
 ]
 
+
+
+def predictions_at(fit, points):
+    """get_prediction(...).summary_frame() at each point, at levels 0.95 and 0.90."""
+    out = []
+    for level in (0.95, 0.90):
+        frame = fit.get_prediction(pandas.DataFrame(points)).summary_frame(alpha=1 - level)
+        for point, (_, row) in zip(points, frame.iterrows()):
+            out.append({
+                "level": level,
+                "point": point,
+                "mean": row["mean"],
+                "mean_se": row["mean_se"],
+                "mean_ci_lower": row["mean_ci_lower"],
+                "mean_ci_upper": row["mean_ci_upper"],
+                "obs_ci_lower": row["obs_ci_lower"],
+                "obs_ci_upper": row["obs_ci_upper"],
+            })
+    return out
+
+
 full = smf.ols("STACKLOSS ~ AIRFLOW + WATERTEMP + ACIDCONC", data).fit()
-predictions = []
-for level in (0.95, 0.90):
-    frame = full.get_prediction(pandas.DataFrame(POINTS)).summary_frame(alpha=1 - level)
-    for point, (_, row) in zip(POINTS, frame.iterrows()):
-        predictions.append({
-            "level": level,
-            "point": point,
-            "mean": row["mean"],
-            "mean_se": row["mean_se"],
-            "mean_ci_lower": row["mean_ci_lower"],
-            "mean_ci_upper": row["mean_ci_upper"],
-            "obs_ci_lower": row["obs_ci_lower"],
-            "obs_ci_upper": row["obs_ci_upper"],
-        })
+predictions = predictions_at(full, POINTS)
 
 # A polynomial of degree 2 in AIRFLOW: the same powers plumb's
 # #polynomial(STACKLOSS, AIRFLOW, degree=2) fits, predicted at new AIRFLOW values.
 POLY_POINTS = [{"AIRFLOW": 55.0}, {"AIRFLOW": 62.0}, {"AIRFLOW": 75.0}, {"AIRFLOW": 85.0}]
 poly = smf.ols("STACKLOSS ~ AIRFLOW + I(AIRFLOW**2)", data).fit()
-poly_predictions = []
-for level in (0.95, 0.90):
-    frame = poly.get_prediction(pandas.DataFrame(POLY_POINTS)).summary_frame(alpha=1 - level)
-    for point, (_, row) in zip(POLY_POINTS, frame.iterrows()):
-        poly_predictions.append({
-            "level": level,
-            "point": point,
-            "mean": row["mean"],
-            "mean_se": row["mean_se"],
-            "mean_ci_lower": row["mean_ci_lower"],
-            "mean_ci_upper": row["mean_ci_upper"],
-            "obs_ci_lower": row["obs_ci_lower"],
-            "obs_ci_upper": row["obs_ci_upper"],
-        })
+poly_predictions = predictions_at(poly, POLY_POINTS)
 
 MODELS = {
     "air": "STACKLOSS ~ AIRFLOW",
