@@ -192,6 +192,13 @@ pub enum OptionValue {
     Group(BTreeMap<String, OptionValue>),
 }
 
+impl Column {
+    /// A plain column (not a power) whose term is itself.
+    pub fn new(name: &str, values: Vec<f64>) -> Column {
+        Column { name: name.into(), term: name.into(), values, power: None }
+    }
+}
+
 /// One column of numbers sent to a plugin.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -278,6 +285,25 @@ pub struct ModelExpression {
 }
 
 impl FitRequest {
+    /// A request of `function` for `response` on `columns`, with an
+    /// intercept, confidence 0.95, no weights, no model expression and no
+    /// options: what a check of a fit starts from, the other fields set by
+    /// struct update (`FitRequest { intercept: false, ..FitRequest::new(…) }`).
+    pub fn new(function: &str, response: Column, columns: Vec<Column>) -> FitRequest {
+        FitRequest {
+            protocol: PROTOCOL_VERSION,
+            function: function.into(),
+            response,
+            columns,
+            intercept: true,
+            weights: None,
+            level: 0.95,
+            expression: None,
+            options: BTreeMap::new(),
+            option_columns: BTreeMap::new(),
+        }
+    }
+
     /// Number of rows sent.
     pub fn rows(&self) -> usize {
         self.response.values.len()
@@ -1306,18 +1332,7 @@ mod tests {
         let mut start = BTreeMap::new();
         start.insert("a".to_string(), OptionValue::Number(40.0));
         options.insert("start".to_string(), OptionValue::Group(start));
-        FitRequest {
-            protocol: PROTOCOL_VERSION,
-            function: "linear".into(),
-            response: col("Yield", &[1.0, 2.0, 4.0]),
-            columns: vec![col("Light", &[1.0, 2.0, 3.0])],
-            intercept: true,
-            weights: None,
-            level: 0.95,
-            expression: None,
-            options,
-            option_columns: BTreeMap::new(),
-        }
+        FitRequest { options, ..FitRequest::new("linear", col("Yield", &[1.0, 2.0, 4.0]), vec![col("Light", &[1.0, 2.0, 3.0])]) }
     }
 
     /// A well-formed outcome for [`request`] (invented figures: only its

@@ -594,28 +594,13 @@ fn diagnose(fit: &numeric::LsFit, d: &Design, cooks: &[f64], external: &[f64], o
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::protocol::{Column, PROTOCOL_VERSION};
+    use crate::protocol::Column;
     use std::collections::BTreeMap;
-
-    fn col(name: &str, values: Vec<f64>) -> Column {
-        Column { name: name.into(), term: name.into(), values, power: None }
-    }
 
     fn request(y: Vec<f64>, cols: Vec<Column>, intercept: bool, weights: Option<Vec<f64>>, errors: &str) -> FitRequest {
         let mut options = BTreeMap::new();
         options.insert("errors".to_string(), OptionValue::Text(errors.into()));
-        FitRequest {
-            protocol: PROTOCOL_VERSION,
-            function: "linear".into(),
-            response: col("y", y),
-            columns: cols,
-            intercept,
-            weights,
-            level: 0.95,
-            expression: None,
-            options,
-            option_columns: BTreeMap::new(),
-        }
+        FitRequest { intercept, weights, options, ..FitRequest::new("linear", Column::new("y", y), cols) }
     }
 
     #[test]
@@ -625,7 +610,7 @@ mod tests {
         let z: Vec<f64> = (0..10).map(|i| ((i * 7) % 5) as f64).collect();
         let y: Vec<f64> = (0..10).map(|i| 1.0 + 0.5 * i as f64 + ((i * 3) % 4) as f64 * 0.3).collect();
         let w: Vec<f64> = (0..10).map(|i| 1.0 + (i % 3) as f64).collect();
-        let req = request(y, vec![col("x", x), col("twice", twice), col("z", z)], false, Some(w), "hc3");
+        let req = request(y, vec![Column::new("x", x), Column::new("twice", twice), Column::new("z", z)], false, Some(w), "hc3");
         let out = Linear::new().fit(&req).expect("fits");
         out.check_shape(&req).expect("well formed");
         assert_eq!(out.standard_errors.as_deref(), Some("HC3"));
@@ -644,7 +629,7 @@ mod tests {
     fn an_exact_fit_gives_blank_checks_and_no_false_warnings() {
         let x: Vec<f64> = (0..8).map(|i| i as f64).collect();
         let y: Vec<f64> = x.iter().map(|v| 1.0 + 2.0 * v).collect();
-        let req = request(y, vec![col("x", x)], true, None, "hc1");
+        let req = request(y, vec![Column::new("x", x)], true, None, "hc1");
         let out = Linear::new().fit(&req).expect("fits");
         out.check_shape(&req).expect("well formed");
         // Every residual is zero: Durbin–Watson and Jarque–Bera are 0/0.
@@ -671,7 +656,7 @@ mod tests {
         // and Durbin–Watson is small (direct consequence of its formula).
         let x: Vec<f64> = (1..9).map(|i| i as f64).collect();
         let y: Vec<f64> = vec![1.0; 8];
-        let req = request(y, vec![col("x", x)], false, None, "hc0");
+        let req = request(y, vec![Column::new("x", x)], false, None, "hc0");
         let out = Linear::new().fit(&req).expect("fits");
         out.check_shape(&req).expect("well formed");
         assert!(out.statistic("durbin_watson").is_some_and(|d| d < 1.5));
@@ -680,7 +665,7 @@ mod tests {
 
     #[test]
     fn as_many_rows_as_parameters_does_not_fail() {
-        let req = request(vec![1.0, 3.0], vec![col("x", vec![0.0, 1.0])], true, None, "hc2");
+        let req = request(vec![1.0, 3.0], vec![Column::new("x", vec![0.0, 1.0])], true, None, "hc2");
         let out = Linear::new().fit(&req).expect("fits");
         out.check_shape(&req).expect("well formed");
     }
@@ -694,7 +679,7 @@ mod tests {
         let mut y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + if i % 3 == 0 { 0.2 } else { -0.1 }).collect();
         x.push(30.0);
         y.push(20.0);
-        let req = request(y, vec![col("x", x)], true, None, "classic");
+        let req = request(y, vec![Column::new("x", x)], true, None, "classic");
         let out = Linear::new().fit(&req).expect("fits");
         assert_eq!(out.row_warnings.len(), 1, "{:?}", out.row_warnings);
         assert_eq!(out.row_warnings[0].row, 10);

@@ -136,18 +136,7 @@ mod tests {
         let col = |name: &str, v: &[f64]| Column { name: name.into(), term: name.into(), values: v.to_vec(), power: None };
         let mut options = BTreeMap::new();
         options.insert("degree".to_string(), OptionValue::Number(degree));
-        FitRequest {
-            protocol: 1,
-            function: "polynomial".into(),
-            response: col("Yield", y),
-            columns: vec![col("Light", x)],
-            intercept: true,
-            weights: None,
-            level: 0.95,
-            expression: None,
-            options,
-            option_columns: BTreeMap::new(),
-        }
+        FitRequest { options, ..FitRequest::new("polynomial", col("Yield", y), vec![col("Light", x)]) }
     }
 
     #[test]

@@ -214,24 +214,13 @@ impl Fit for Robust {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::protocol::{Column, PROTOCOL_VERSION};
+    use crate::protocol::Column;
     use std::collections::BTreeMap;
 
     fn request(y: Vec<f64>, x: Vec<f64>, method: &str) -> FitRequest {
         let mut options = BTreeMap::new();
         options.insert("method".to_string(), OptionValue::Text(method.into()));
-        FitRequest {
-            protocol: PROTOCOL_VERSION,
-            function: "robust".into(),
-            response: Column { name: "y".into(), term: "y".into(), values: y, power: None },
-            columns: vec![Column { name: "x".into(), term: "x".into(), values: x, power: None }],
-            intercept: true,
-            weights: None,
-            level: 0.95,
-            expression: None,
-            option_columns: std::collections::BTreeMap::new(),
-            options,
-        }
+        FitRequest { options, ..FitRequest::new("robust", Column::new("y", y), vec![Column::new("x", x)]) }
     }
 
     #[test]
