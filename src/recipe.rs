@@ -131,8 +131,6 @@ pub struct Input {
 /// How a fit's model columns are made from its inputs.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Recipe {
-    /// Whether the model has an intercept (a first column of ones).
-    pub intercept: bool,
     /// The input columns, in order of first use.
     pub inputs: Vec<Input>,
     /// One tree per term of the request.
@@ -198,31 +196,17 @@ impl Recipe {
         }
     }
 
-    /// The model row for new input values (one per input, in order),
-    /// intercept first when there is one. An error names the input at fault.
-    pub fn row(&self, values: &[NewValue]) -> Result<Vec<f64>, String> {
-        let refs: Vec<String> = self.inputs.iter().map(|i| i.name.clone()).collect();
-        Ok(self.expand(values, &refs)?.into_iter().map(|s| s.value).collect())
-    }
-
-    /// The model row as spreadsheet formulas over the cells holding the
-    /// inputs (`cells[i]`, such as `$C$5`), intercept first as `1`; the
-    /// values are those of `values`.
-    pub fn formulas(&self, values: &[NewValue], cells: &[String]) -> Result<Vec<(f64, String)>, String> {
-        Ok(self.expand(values, cells)?.into_iter().map(|s| (s.value, s.formula)).collect())
-    }
-
     /// The values of the request's columns (the model columns the resolver
     /// sent, intercept excluded) at new input values.
     pub fn columns_at(&self, values: &[NewValue]) -> Result<Vec<f64>, String> {
         let refs: Vec<String> = self.inputs.iter().map(|i| i.name.clone()).collect();
-        Ok(self.expand(values, &refs)?.into_iter().skip(usize::from(self.intercept)).map(|s| s.value).collect())
+        Ok(self.expand(values, &refs)?.into_iter().map(|s| s.value).collect())
     }
 
     /// The request's columns as spreadsheet formulas over the cells holding
     /// the inputs (`cells[i]`, such as `$C$5`), with their values at `values`.
     pub fn column_formulas(&self, values: &[NewValue], cells: &[String]) -> Result<Vec<(f64, String)>, String> {
-        Ok(self.expand(values, cells)?.into_iter().skip(usize::from(self.intercept)).map(|s| (s.value, s.formula)).collect())
+        Ok(self.expand(values, cells)?.into_iter().map(|s| (s.value, s.formula)).collect())
     }
 
     fn expand(&self, values: &[NewValue], cells: &[String]) -> Result<Vec<Sym>, String> {
@@ -230,9 +214,6 @@ impl Recipe {
             return Err(format!("{} values for {} inputs", values.len(), self.inputs.len()));
         }
         let mut out = Vec::new();
-        if self.intercept {
-            out.push(Sym { value: 1.0, formula: "1".into() });
-        }
         for t in &self.terms {
             let ev = self.eval(t, values, cells)?;
             let parts = match ev {
@@ -257,10 +238,10 @@ impl Recipe {
             }
             out.extend(acc);
         }
-        if out.len() != self.columns.len() + usize::from(self.intercept) {
-            return Err(format!("the recipe makes {} columns but the fit has {}", out.len(), self.columns.len() + usize::from(self.intercept)));
+        if out.len() != self.columns.len() {
+            return Err(format!("the recipe makes {} columns but the fit has {}", out.len(), self.columns.len()));
         }
-        for (s, label) in out.iter().skip(usize::from(self.intercept)).zip(&self.columns) {
+        for (s, label) in out.iter().zip(&self.columns) {
             if !s.value.is_finite() {
                 return Err(format!("the term {label} is undefined at these values (such as the log of a value ≤ 0)"));
             }
@@ -374,9 +355,8 @@ mod tests {
     use super::*;
 
     fn recipe() -> Recipe {
-        // Light + Light^2 + Light*Bay, intercept.
+        // Light + Light^2 + Light*Bay.
         Recipe {
-            intercept: true,
             inputs: vec![
                 Input { name: "Light".into(), kind: InputKind::Numeric { min: 8.0, max: 16.0, mean: 12.0 } },
                 Input { name: "Bay".into(), kind: InputKind::Levels { levels: vec!["East".into(), "North".into(), "West".into()], base: "East".into() } },
@@ -394,21 +374,21 @@ mod tests {
     #[test]
     fn new_values_become_the_model_row() {
         let r = recipe();
-        let row = r.row(&[NewValue::Number(10.0), NewValue::Text("north".into())]).unwrap();
-        // Worked by hand (common practice): 1, 10, 100, 10·1, 10·0.
-        assert_eq!(row, vec![1.0, 10.0, 100.0, 10.0, 0.0]);
-        let f = r.formulas(&[NewValue::Number(10.0), NewValue::Text("West".into())], &["$B$2".into(), "$B$3".into()]).unwrap();
-        assert_eq!(f[2].1, "(($B$2)^(2))");
-        assert_eq!(f[4].1, "$B$2*IF($B$3=\"West\",1,0)");
-        assert_eq!(f[4].0, 10.0);
+        let row = r.columns_at(&[NewValue::Number(10.0), NewValue::Text("north".into())]).unwrap();
+        // Worked by hand (common practice): 10, 100, 10·1, 10·0.
+        assert_eq!(row, vec![10.0, 100.0, 10.0, 0.0]);
+        let f = r.column_formulas(&[NewValue::Number(10.0), NewValue::Text("West".into())], &["$B$2".into(), "$B$3".into()]).unwrap();
+        assert_eq!(f[1].1, "(($B$2)^(2))");
+        assert_eq!(f[3].1, "$B$2*IF($B$3=\"West\",1,0)");
+        assert_eq!(f[3].0, 10.0);
     }
 
     #[test]
     fn wrong_values_are_refused_with_the_levels() {
         let r = recipe();
-        let e = r.row(&[NewValue::Number(10.0), NewValue::Text("South".into())]).unwrap_err();
+        let e = r.columns_at(&[NewValue::Number(10.0), NewValue::Text("South".into())]).unwrap_err();
         assert!(e.contains("East, North, West"), "{e}");
-        assert!(r.row(&[NewValue::Text("x".into()), NewValue::Text("East".into())]).is_err());
+        assert!(r.columns_at(&[NewValue::Text("x".into()), NewValue::Text("East".into())]).is_err());
         assert_eq!(r.outside(&[NewValue::Number(20.0), NewValue::Text("East".into())]).len(), 1);
     }
 }

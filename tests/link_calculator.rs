@@ -55,7 +55,6 @@ fn fit_and_prediction(name: &str, link: Link, b: [f64; 2], col: u32) -> (Report,
     let point = predict::at(&pr, &b, &[7.0], 0.9).expect("predicts");
     let outcome = FitOutcome { coefficients: vec![coefficient("Intercept", b[0]), coefficient("Distance", b[1])], predictor: Some(pr), ..Default::default() };
     let recipe = Recipe {
-        intercept: true,
         inputs: vec![Input { name: "Distance".into(), kind: InputKind::Numeric { min: 1.0, max: 12.0, mean: 5.0 } }],
         terms: vec![Node::Input(0)],
         columns: vec!["Distance".into()],

@@ -494,7 +494,6 @@ mod tests {
             }),
             place: None,
             recipe: Some(Recipe {
-                intercept: true,
                 inputs: vec![Input { name: "Dose".into(), kind: InputKind::Numeric { min: 0.0, max: 10.0, mean: 5.0 } }],
                 terms: vec![Node::Input(0)],
                 columns: vec!["Dose".into()],
@@ -572,10 +571,7 @@ mod tests {
     fn a_model_without_a_spreadsheet_formula_gets_a_line_saying_so() {
         // A model naming a column (3) the recipe has no input for.
         let f = Formula::Mul(Box::new(Formula::Parameter(0)), Box::new(Formula::Column(3)));
-        let mut r = report(PredictorForm::Model { formula: f }, Link::Identity, Some(0.8), Some(27.0), &[2.0]);
-        if let Some(rec) = r.recipe.as_mut() {
-            rec.intercept = false;
-        }
+        let r = report(PredictorForm::Model { formula: f }, Link::Identity, Some(0.8), Some(27.0), &[2.0]);
         let mut s = Sheet::new("Intervals");
         assert_eq!(calculator(&mut s, 0, &Workbook { sheets: Vec::new() }, &r), 3);
         assert!(matches!(s.cells.get(&(1, 0)).map(|c| &c.content), Some(Content::Text(t)) if t.starts_with("No calculator for this fit")));
@@ -588,10 +584,7 @@ mod tests {
         let b = |f: Formula| Box::new(f);
         let e = Formula::Call(Function::Exp, b(Formula::Neg(b(Formula::Mul(b(Formula::Parameter(1)), b(Formula::Column(0)))))));
         let f = Formula::Add(b(Formula::Mul(b(Formula::Parameter(0)), b(e))), b(Formula::Parameter(2)));
-        let mut r = report(PredictorForm::Model { formula: f }, Link::Identity, Some(0.8), Some(27.0), &[40.0, 0.2, 5.0]);
-        if let Some(rec) = r.recipe.as_mut() {
-            rec.intercept = false;
-        }
+        let r = report(PredictorForm::Model { formula: f }, Link::Identity, Some(0.8), Some(27.0), &[40.0, 0.2, 5.0]);
         let (s, rows) = laid_out(&r);
         let pr = r.outcome.as_ref().and_then(|o| o.predictor.as_ref()).expect("a predictor");
         let pt = predict::at(pr, &[40.0, 0.2, 5.0], &[5.0], 0.9).expect("predicts");

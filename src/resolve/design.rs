@@ -277,7 +277,7 @@ type RecipeInput = (Input, Option<Vec<f64>>, NewValue);
 /// with each input's range (numbers) or levels and base (text) in the kept
 /// rows. `None` when a term uses a range or anything a new value could not
 /// be given for.
-pub(super) fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<String, String>, intercept: bool, columns: &[Column]) -> Option<Recipe> {
+pub(super) fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases: &BTreeMap<String, String>, columns: &[Column]) -> Option<Recipe> {
     fn node(e: &Expr, frame: &Frame, keep: &[usize], bases: &BTreeMap<String, String>, inputs: &mut Vec<RecipeInput>) -> Option<Node> {
         Some(match &e.kind {
             ExprKind::Name(n) | ExprKind::Quoted(n) => {
@@ -341,15 +341,13 @@ pub(super) fn build_recipe(frame: &Frame, keep: &[usize], terms: &[Expr], bases:
     };
     let first: Vec<NewValue> = inputs.iter().map(|(_, _, f)| f.clone()).collect();
     let recipe = Recipe {
-        intercept,
         inputs: inputs.into_iter().map(|(i, _, _)| i).collect(),
         terms: trees,
         columns: columns.iter().map(|c| c.name.clone()).collect(),
         single_input,
     };
     // The recipe must rebuild the model exactly: check it on the first row used.
-    let row = recipe.row(&first).ok()?;
-    let skip = usize::from(intercept);
-    let same = columns.iter().zip(&row[skip..]).all(|(c, x)| c.values.first().is_some_and(|v| (v - x).abs() <= 1e-12 * v.abs().max(1.0)));
+    let row = recipe.columns_at(&first).ok()?;
+    let same = columns.iter().zip(&row).all(|(c, x)| c.values.first().is_some_and(|v| (v - x).abs() <= 1e-12 * v.abs().max(1.0)));
     same.then_some(recipe)
 }

@@ -542,7 +542,7 @@ pub fn resolve(
     // A recipe rebuilds the request's columns from new values: the terms'
     // columns, after a model expression's columns, each of them as itself.
     let recipe_terms: Vec<Expr> = expression_columns.iter().map(|e| (*e).clone()).chain(term_exprs.iter().cloned()).collect();
-    let recipe = design::build_recipe(&frame, &keep, &recipe_terms, &host.bases, intercept, &request.columns);
+    let recipe = design::build_recipe(&frame, &keep, &recipe_terms, &host.bases, &request.columns);
     let term_spans: Vec<(String, Span)> = roles
         .expression
         .map(|x| (x.text.clone(), x.expr.span))
