@@ -516,6 +516,9 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     // Told from the content, not the name: an ods saved as .xlsx still has
     // OpenFormula syntax, which would be a broken formula in xlsx.
     let keep_formulas = format != read::Format::Ods;
+    // An xlsx or xlsm input keeps its own sheets exactly; other formats are
+    // read for their values and formulas only.
+    let keep_own = format == read::Format::Xlsx && write::can_keep(&config.input, &book.sheets.iter().map(|g| g.name.clone()).collect::<Vec<_>>()).is_ok();
     let lay_out = |reports: &[Report]| layout::Book { keep_formulas, ..layout::lay_out(&book, reports, &info) };
     let mut laid = lay_out(&summary.reports);
     // A part the output cannot hold (a chart, a calculator, a list) costs
@@ -531,7 +534,23 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         laid.leave_out(&again);
     }
     let lock = open_lock(&out);
-    let skipped = write::write_book(&book, &laid, &out, &WriteOptions { created_unix: created, zip_level: 3 }).map_err(RunError::Write)?;
+    let opts = WriteOptions { created_unix: created, zip_level: 3 };
+    let skipped = if keep_own {
+        let written = write::write_book_keeping(&book, &laid, &config.input, &out, &opts).map_err(RunError::Write)?;
+        if let Some(why) = &written.fallback {
+            summary.problems.push(
+                Problem::warning(format!("your sheets are written from their values only: their formats, widths and other settings could not be kept ({why})"))
+                    .help("the results are complete; please report this with the workbook so the sheets can be kept as they are")
+                    .in_file(file_label(&config.input)),
+            );
+        }
+        for what in &written.left_out {
+            summary.problems.push(Problem::note(format!("not carried over to the output: {what}")).in_file(file_label(&config.input)));
+        }
+        written.refused
+    } else {
+        write::write_book(&book, &laid, &out, &opts).map_err(RunError::Write)?
+    };
     // Replaced while open: the application still shows the old results,
     // and saving there would put them back over the new ones.
     if let Some(lock) = lock {

@@ -41,8 +41,8 @@ def sheet_part(z, name):
     """The zip path of the worksheet called name."""
     wb = z.read("xl/workbook.xml").decode()
     rels = z.read("xl/_rels/workbook.xml.rels").decode()
-    rid = re.search(r'<sheet name="%s" sheetId="\d+" r:id="(rId\d+)"' % re.escape(escape(name)), wb).group(1)
-    target = re.search(r'Id="%s"[^>]*Target="([^"]+)"' % rid, rels) or re.search(r'Target="([^"]+)"[^>]*Id="%s"' % rid, rels)
+    rid = re.search(r'<sheet name="%s" sheetId="\d+" [^>]*?r:id="([^"]+)"' % re.escape(escape(name)), wb).group(1)
+    target = re.search(r'Id="%s"[^>]*Target="([^"]+)"' % re.escape(rid), rels) or re.search(r'Target="([^"]+)"[^>]*Id="%s"' % re.escape(rid), rels)
     return "xl/" + target.group(1).lstrip("/").replace("xl/", "")
 
 

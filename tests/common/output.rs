@@ -191,8 +191,9 @@ pub fn chart_parts(path: &Path) -> Vec<(Vec<String>, Vec<String>)> {
     use std::io::Read;
     let f = std::fs::File::open(path).unwrap();
     let mut z = zip::ZipArchive::new(f).unwrap();
-    let mut names: Vec<String> = z.file_names().filter_map(|n| n.ok().map(|n| n.to_string())).filter(|n| n.starts_with("xl/charts/chart")).collect();
-    names.sort_by_key(|n| n.trim_start_matches("xl/charts/chart").trim_end_matches(".xml").parse::<u32>().unwrap_or(0));
+    let mut names: Vec<String> = z.file_names().filter_map(|n| n.ok().map(|n| n.to_string())).filter(|n| n.starts_with("xl/charts/chart") || n.starts_with("xl/charts/plumb-chart")).collect();
+    // plumb's charts are named plumb-chartN only where the input has a chartN of its own.
+    names.sort_by_key(|n| (n.starts_with("xl/charts/chart"), n.trim_start_matches("xl/charts/").trim_start_matches("plumb-").trim_start_matches("chart").trim_end_matches(".xml").parse::<u32>().unwrap_or(0)));
     let grab = |s: &str, open: &str, close: &str| -> Vec<String> {
         s.split(open).skip(1).filter_map(|p| p.split(close).next()).map(String::from).collect()
     };

@@ -13,6 +13,10 @@
 //! writing ([`check_parts`]) and, should one still fail, left out while
 //! writing: it never costs the rest of the workbook.
 
+mod graft;
+
+pub use graft::{can_keep, GraftError};
+
 use crate::cells::{quote_sheet_name, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
 use crate::layout::{format_code, output_sheet_names, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Part, Refused, Sheet, SheetAt, Style};
 use rust_xlsxwriter::{Chart, ChartAxisCrossing, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
@@ -628,6 +632,93 @@ pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOption
         let _ = std::fs::remove_file(&tmp);
     }
     result
+}
+
+/// What [`write_book_keeping`] wrote.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Written {
+    /// Parts of plumb's results the format refused (see [`check_parts`]).
+    pub refused: Vec<Refused>,
+    /// Things of the input that are not in the output, in plain words.
+    pub left_out: Vec<String>,
+    /// Why the input's own sheets could not be kept, when they were written
+    /// from their values instead.
+    pub fallback: Option<String>,
+}
+
+/// The cells an overlay writes: (first row, first column, last row, last column).
+fn overlay_extent(ov: &Overlay) -> Option<(u32, u32, u32, u32)> {
+    let mut ext: Option<(u32, u32, u32, u32)> = None;
+    let mut add = |r: u32, c: u32| {
+        ext = Some(match ext {
+            None => (r, c, r, c),
+            Some((a, b, x, y)) => (a.min(r), b.min(c), x.max(r), y.max(c)),
+        });
+    };
+    for &(r, c) in ov.cells.keys() {
+        add(r, c);
+    }
+    for b in &ov.blocks {
+        for r in b.header.iter().map(|h| h.0).chain(b.rows.first().copied()).chain(b.rows.last().copied()) {
+            add(r, b.col);
+        }
+    }
+    ext
+}
+
+/// As [`write_book`], keeping the input's own package (an xlsx or xlsm
+/// file at `input`): its sheets exactly as they are, with plumb's cells,
+/// columns, links and notes added and the result sheets after them (see
+/// the `graft` module). Should the package hold something the graft does
+/// not expect, the source sheets are written from their values as
+/// [`write_book`] does, and [`Written::fallback`] says why.
+pub fn write_book_keeping(source: &Workbook, book: &Book, input: &Path, out: &Path, opts: &WriteOptions) -> Result<Written, WriteError> {
+    let dir = match out.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
+    let own = dir.join(format!(".{file}.plumb-{}-own.tmp", std::process::id()));
+    // Plumb's own part: the source sheets holding only the overlay.
+    let bare = Workbook {
+        sheets: source
+            .sheets
+            .iter()
+            .map(|g| {
+                let mut e = Grid::new(g.name.clone());
+                e.visibility = g.visibility;
+                e
+            })
+            .collect(),
+    };
+    let refused = write_book(&bare, book, &own, opts)?;
+    let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
+    let sources: Vec<graft::SourceAdds> = source
+        .sheets
+        .iter()
+        .enumerate()
+        .map(|(i, g)| {
+            let ov = book.overlays.get(i);
+            graft::SourceAdds { name: g.name.clone(), touched: ov.is_some_and(|o| !o.cells.is_empty() || !o.blocks.is_empty()), extent: ov.and_then(overlay_extent) }
+        })
+        .collect();
+    let names_match = book.source_names.is_empty() || book.source_names.iter().zip(&source.sheets).all(|(n, g)| *n == g.name);
+    let grafted = if names_match { graft::graft(input, &own, &tmp, opts.zip_level, &sources) } else { Err(GraftError("a sheet name had to change in the output".into())) };
+    let _ = std::fs::remove_file(&own);
+    match grafted {
+        Ok(g) => {
+            std::fs::rename(&tmp, out).map_err(|source| {
+                let _ = std::fs::remove_file(&tmp);
+                WriteError::Io { path: out.to_path_buf(), action: "move the finished output to", source }
+            })?;
+            Ok(Written { refused, left_out: g.left_out, fallback: None })
+        }
+        Err(why) => {
+            let _ = std::fs::remove_file(&tmp);
+            let refused = write_book(source, book, out, opts)?;
+            Ok(Written { refused, left_out: Vec::new(), fallback: Some(why.0) })
+        }
+    }
 }
 
 fn build(source: &Workbook, book: &Book, tmp: &Path, dir: &Path, opts: &WriteOptions) -> Result<Vec<Refused>, WriteError> {
