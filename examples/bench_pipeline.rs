@@ -2,8 +2,14 @@
 //! (one least-squares request with every per-row column), lay out, write.
 //!
 //! ```text
-//! cargo run --release --example bench_pipeline -- 1000000   # rows (default 100000)
+//! cargo run --release --example bench_pipeline -- 1000000          # rows (default 100000)
+//! cargo run --release --example bench_pipeline -- 1000000 values   # the values-only writer
 //! ```
+//!
+//! By default the output keeps the input's own package, as `plumb run`
+//! does for an xlsx input; `values` writes the source sheets from their
+//! values instead (the writer's fallback, and the path of xls and ods
+//! inputs).
 //!
 //! The input is made once per row count in the system temp folder
 //! (`plumb-bench-N.xlsx`: 12 numeric columns, one request); each phase's
@@ -15,7 +21,7 @@ use plumb::layout::lay_out;
 use plumb::report::RunInfo;
 use plumb::pipeline::evaluate_book;
 use plumb::read::read_workbook;
-use plumb::write::{write_book, WriteOptions};
+use plumb::write::{write_book, write_book_keeping, WriteOptions};
 use rust_xlsxwriter::Workbook;
 use std::time::Instant;
 
@@ -66,6 +72,7 @@ fn make_input(path: &std::path::Path, rows: u32) -> Result<(), Box<dyn std::erro
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let rows: u32 = std::env::args().nth(1).map(|a| a.parse()).transpose()?.unwrap_or(100_000);
+    let values_only = std::env::args().nth(2).is_some_and(|a| a == "values");
     let dir = std::env::temp_dir();
     let input = dir.join(format!("plumb-bench-{rows}.xlsx"));
     if !input.exists() {
@@ -87,10 +94,17 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let t = Instant::now();
     let info = RunInfo { version: env!("CARGO_PKG_VERSION").into(), input_name: "bench".into(), input_sha256: String::new(), time: String::new() };
     let laid = lay_out(&book, &summary.reports, &info);
-    write_book(&book, &laid, &out, &WriteOptions { created_unix: 0, zip_level: 3 })?;
+    let opts = WriteOptions { created_unix: 0, zip_level: 3 };
+    if values_only {
+        write_book(&book, &laid, &out, &opts)?;
+    } else {
+        let w = write_book_keeping(&book, &laid, &input, &out, &opts)?;
+        assert!(w.fallback.is_none(), "{:?}", w.fallback);
+    }
     let write_s = t.elapsed().as_secs_f64();
     let total = start.elapsed().as_secs_f64();
-    println!("rows {rows}: read {read_s:.2} s (peak {read_mb:.0} MB), resolve+fit {fit_s:.2} s (peak {fit_mb:.0} MB), layout+write {write_s:.2} s, total {total:.2} s, peak {:.0} MB", peak_mb());
+    let how = if values_only { "values" } else { "kept" };
+    println!("rows {rows} ({how}): read {read_s:.2} s (peak {read_mb:.0} MB), resolve+fit {fit_s:.2} s (peak {fit_mb:.0} MB), layout+write {write_s:.2} s, total {total:.2} s, peak {:.0} MB", peak_mb());
     let _ = std::fs::remove_file(&out);
     Ok(())
 }
