@@ -770,6 +770,31 @@ mod tests {
     }
 
     #[test]
+    fn ordered_options_are_checked() {
+        let x: Vec<f64> = (0..12).map(|i| i as f64).collect();
+        let y: Vec<f64> = (0..12).map(|i| 1.0 + 0.5 * i as f64 + ((i * 5) % 3) as f64).collect();
+        let plain = request(y.clone(), vec![Column::new("x", x.clone())], true, None, "neweywest");
+        let e = Linear::new().fit(&plain).expect_err("needs order=");
+        assert!(e.message.contains("order"), "{e:?}");
+        let e = Linear::new().fit(&FitRequest { options: [("errors".to_string(), OptionValue::Text("clustered".into()))].into(), ..plain.clone() }).expect_err("needs groups=");
+        assert!(e.message.contains("groups"), "{e:?}");
+        // One group only: no clustering.
+        let mut one = plain.clone();
+        one.options.insert("errors".into(), OptionValue::Text("clustered".into()));
+        one.option_columns.insert(GROUPS.into(), vec![1.0; 12]);
+        assert!(Linear::new().fit(&one).expect_err("one group").message.contains("two groups"));
+        // lags= from 1 to n − 1.
+        let mut lags = request(y, vec![Column::new("x", x)], true, None, "classic");
+        lags.options.insert(LAGS.into(), OptionValue::Number(12.0));
+        assert!(Linear::new().fit(&lags).expect_err("too many lags").message.contains("lags=12"));
+        lags.options.insert(LAGS.into(), OptionValue::Number(3.0));
+        let out = Linear::new().fit(&lags).expect("fits");
+        assert_eq!(out.statistic("breusch_godfrey_lags"), Some(3.0));
+        // Without order= a note says the rows are in sheet order.
+        assert!(out.notes.iter().any(|n| n.contains("in sheet order") && n.contains("may not be neighbours in time")), "{:?}", out.notes);
+    }
+
+    #[test]
     fn short_figures() {
         // Four significant digits (our display rule).
         assert_eq!(short(1.485131), "1.485");
