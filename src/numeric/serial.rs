@@ -240,7 +240,7 @@ fn adaptive_gk15(f: &dyn Fn(f64) -> f64, a: f64, b: f64, tol: f64, depth: u32) -
 /// freedom or when `d` is not finite.
 pub fn durbin_watson_p(fit: &LsFit, x: &[f64], seq: &Sequence, d: f64) -> Option<Integrated> {
     let n = fit.n;
-    if !d.is_finite() || n > DW_EXACT_MAX_ROWS || n < 2 || seq.rows.len() != n {
+    if !d.is_finite() || !(2..=DW_EXACT_MAX_ROWS).contains(&n) || seq.rows.len() != n {
         return None;
     }
     let (a, kept, _) = scaled_design(fit, x)?;
@@ -475,8 +475,8 @@ mod tests {
         // Q = a z₁² − b z₂² ≤ 0 ⇔ |z₁/z₂| ≤ √(b/a): the ratio of two
         // standard normals is Cauchy, so P = (2/π) arctan √(b/a) (a
         // textbook result, derived here; not from a table).
-        for (a, b) in [(1.0, 3.0), (2.5, 0.4), (1.0, 1e-3)] {
-            let want = 2.0 / std::f64::consts::PI * (b / a as f64).sqrt().atan();
+        for (a, b) in [(1.0f64, 3.0f64), (2.5, 0.4), (1.0, 1e-3)] {
+            let want = 2.0 / std::f64::consts::PI * (b / a).sqrt().atan();
             let r = imhof(&[a, -b]).expect("a probability");
             assert!((r.probability - want).abs() < 1e-9 && r.error < 1e-6, "{a}, {b}: {r:?} vs {want}");
         }
