@@ -25,6 +25,7 @@ use std::path::Path;
 fn close(got: Option<f64>, want: f64, tol: f64, what: &str) {
     let got = got.unwrap_or_else(|| panic!("{what}: no figure in the output (reference {want})"));
     let rel = ((got - want) / want).abs();
+    println!("{what}: relative difference {rel:.1e}");
     assert!(rel < tol, "{what}: got {got}, reference {want} (relative difference {rel:.1e}, tolerance {tol:.0e})");
 }
 
@@ -145,6 +146,7 @@ fn a_panel_is_checked_within_groups_and_clustered_by_them() {
     // Clustered by firm: statsmodels cov_type="cluster" (factor
     // G/(G−1)·(n−1)/(n−k); t and F on G − 1 = 10 degrees of freedom).
     same_tests(&out, "clustered", &w["clustered"], &["value", "capital"], 1e-9);
+    assert_eq!(output::statistic(&out, "clustered", "F: residual degrees of freedom"), Some(10.0), "F on G − 1 = 10");
     // Newey–West within firms: statsmodels cov_type="hac-panel", maxlags=2,
     // use_correction=False.
     for (j, c) in output::coefficients(&out, "panel").iter().enumerate() {

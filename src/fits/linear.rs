@@ -252,7 +252,8 @@ impl Fit for Linear {
             Some(OptionValue::Text(w)) => ErrorKind::parse(w).ok_or_else(|| FitError::new(format!("errors={w} is not one of the choices")).help(ERRORS_HELP))?,
             Some(_) => return Err(FitError::new("errors= takes a word").help(ERRORS_HELP)),
         };
-        let ordered = Ordered::of(req, n)?;
+        let mut ordered = Ordered::of(req, n)?;
+        ordered.allowed_for = matches!(kind, ErrorKind::NeweyWest | ErrorKind::Clustered);
         let intercept_col = req.intercept.then_some(0);
         // The covariance every test uses: classic, robust with errors=hc*,
         // Newey–West or clustered; clustered tests use G − 1 degrees of
@@ -415,6 +416,9 @@ impl Fit for Linear {
                 if let Some(s) = out.statistics.iter_mut().find(|s| s.key == "f_p_value") {
                     s.value = pv;
                 }
+                if let Some(s) = out.statistics.iter_mut().find(|s| s.key == "f_df_residual") {
+                    s.value = df_tests;
+                }
             }
             out.notes.push(format!("the F test of all the terms and the test of each term are robust Wald tests on the {} covariance, in their F form W/q on F(q, {df_tests}); the analysis of variance stays classic", kind.label()));
         }
@@ -486,6 +490,9 @@ struct Ordered {
     groups: Option<String>,
     seq: serial::Sequence,
     lags: usize,
+    /// Whether the standard errors in use allow for correlated errors
+    /// (`errors=neweywest` or `clustered`).
+    allowed_for: bool,
 }
 
 impl Ordered {
@@ -510,6 +517,7 @@ impl Ordered {
             groups: groups.map(|_| name(GROUPS).unwrap_or_else(|| GROUPS.to_string())),
             seq,
             lags,
+            allowed_for: false,
         })
     }
 
@@ -678,7 +686,7 @@ fn diagnose(fit: &numeric::LsFit, d: &Design, ordered: &Ordered, cooks: &[f64], 
             "the residuals look correlated in {}: Durbin–Watson is {} (far from 2; below {} or above {} draws this warning), so {how}; {}",
             if ordered.order.is_some() || ordered.groups.is_some() { "the order of the rows used" } else { "row order" },
             short(dw), DW_BAND.0, DW_BAND.1,
-            if ordered.order.is_some() { "the classic standard errors may be too small: errors=neweywest allows for it" } else { "if the rows are in time order, the standard errors may be too small (give order= with the time column)" }
+            if ordered.allowed_for { "the standard errors in use allow for it" } else if ordered.order.is_some() { "the classic standard errors may be too small: errors=neweywest allows for it" } else { "if the rows are in time order, the standard errors may be too small (give order= with the time column)" }
         ));
     }
     if let Some(bp) = &bp {
