@@ -162,6 +162,8 @@ fn a_panel_is_checked_within_groups_and_clustered_by_them() {
         // -2.2e-16 ± 1e-14), so only its smallness is checked.
         let p = output::statistic(&out, fit, "p-value of Durbin–Watson (exact; against positive correlation)").expect("a p-value");
         assert!((0.0..1e-12).contains(&p), "{fit}: Durbin–Watson p {p}");
+        let said = output::table(&out, "Diagnostics").iter().flatten().filter_map(output::text).any(|t| t.contains("below the accuracy of its numerical integral"));
+        assert!(said, "{fit}: a note says the p-value is below the integral's accuracy");
         close(output::statistic(&out, fit, "Breusch–Godfrey (n·R²)"), f(&w["bg_within_2"]["lm"]), 1e-9, "Breusch–Godfrey within firms");
         close(output::statistic(&out, fit, "p-value of Breusch–Godfrey (χ²)"), f(&w["bg_within_2"]["p"]), 1e-9, "its p-value");
     }

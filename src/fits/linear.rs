@@ -542,7 +542,12 @@ fn neighbours(fit: &numeric::LsFit, x: &[f64], ordered: &Ordered, u: &[f64], out
     let dw = serial::durbin_watson(u, seq);
     out.statistics.push(dec("durbin_watson", "Durbin–Watson (no correlation = 2)", g, dw, 3).detail(format!("rows {}", ordered.describe())));
     match serial::durbin_watson_p(fit, x, seq, dw) {
-        Some(p) => out.statistics.push(pval("durbin_watson_p_value", "p-value of Durbin–Watson (exact; against positive correlation)", g, p.probability)),
+        Some(p) => {
+            out.statistics.push(pval("durbin_watson_p_value", "p-value of Durbin–Watson (exact; against positive correlation)", g, p.probability));
+            if p.probability <= 2.0 * p.error {
+                out.notes.push(format!("the exact p-value of Durbin–Watson is below the accuracy of its numerical integral ({}): read it as less than that", short(2.0 * p.error)));
+            }
+        }
         None if fit.n > serial::DW_EXACT_MAX_ROWS => out.notes.push(format!(
             "the exact p-value of Durbin–Watson is left out: it is computed for up to {} rows (the work grows with the cube of the rows); the Breusch–Godfrey test stands in",
             serial::DW_EXACT_MAX_ROWS
