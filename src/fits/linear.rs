@@ -554,10 +554,17 @@ fn neighbours(fit: &numeric::LsFit, x: &[f64], ordered: &Ordered, u: &[f64], out
         )),
         None => {}
     }
-    if let Some(bg) = serial::breusch_godfrey(fit, x, seq, ordered.lags) {
-        out.statistics.push(dec("breusch_godfrey", "Breusch–Godfrey (n·R²)", g, bg.statistic, 3));
-        out.statistics.push(pval("breusch_godfrey_p_value", "p-value of Breusch–Godfrey (χ²)", g, bg.p_value));
-        out.statistics.push(count("breusch_godfrey_lags", "Lags tested by Breusch–Godfrey", g, bg.lags as f64));
+    match serial::breusch_godfrey(fit, x, seq, ordered.lags) {
+        Some(bg) => {
+            out.statistics.push(dec("breusch_godfrey", "Breusch–Godfrey (n·R²)", g, bg.statistic, 3));
+            out.statistics.push(pval("breusch_godfrey_p_value", "p-value of Breusch–Godfrey (χ²)", g, bg.p_value));
+            out.statistics.push(count("breusch_godfrey_lags", "Lags tested by Breusch–Godfrey", g, bg.lags as f64));
+        }
+        None if u.iter().any(|v| *v != 0.0) => out.notes.push(format!(
+            "the Breusch–Godfrey test is left out: its regression of the residuals on the terms and {} lags needs more rows than columns; give fewer lags=",
+            ordered.lags
+        )),
+        None => {}
     }
     if ordered.order.is_none() {
         out.notes.push(format!(
@@ -800,6 +807,10 @@ mod tests {
         let mut lags = request(y, vec![Column::new("x", x)], true, None, "classic");
         lags.options.insert(LAGS.into(), OptionValue::Number(12.0));
         assert!(Linear::new().fit(&lags).expect_err("too many lags").message.contains("lags=12"));
+        // 10 lags + 2 columns on 12 rows: no Breusch–Godfrey, and a note.
+        lags.options.insert(LAGS.into(), OptionValue::Number(10.0));
+        let out = Linear::new().fit(&lags).expect("fits");
+        assert!(out.statistic("breusch_godfrey").is_none() && out.notes.iter().any(|n| n.contains("Breusch–Godfrey test is left out")), "{:?}", out.notes);
         lags.options.insert(LAGS.into(), OptionValue::Number(3.0));
         let out = Linear::new().fit(&lags).expect("fits");
         assert_eq!(out.statistic("breusch_godfrey_lags"), Some(3.0));
