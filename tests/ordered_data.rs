@@ -73,6 +73,17 @@ fn same_tests(out: &Path, fit: &str, want: &Json, terms: &[&str], tol: f64) {
         close(c.std_error, f(&want["se"][j]), tol, &format!("{fit}: standard error of {}", c.term));
         close(c.p, f(&want["p"][j]), tol, &format!("{fit}: p-value of {}", c.term));
     }
+    // The intervals (t on n − p, or on G − 1 when clustered).
+    let t = output::table(out, "Coefficients");
+    let h: Vec<&str> = t[0].iter().map(|c| output::text(c).unwrap_or("")).collect();
+    let col = |name: &str| h.iter().position(|x| *x == name).unwrap_or_else(|| panic!("no column {name}"));
+    let (cf, lo, hi) = (col("Fit"), col("Confidence interval: from"), col("Confidence interval: to"));
+    let rows: Vec<_> = t[1..].iter().filter(|r| output::text(&r[cf]) == Some(fit)).collect();
+    assert_eq!(rows.len(), coefs.len());
+    for (j, r) in rows.iter().enumerate() {
+        close(output::num(&r[lo]), f(&want["lower"][j]), tol, &format!("{fit}: interval from, row {j}"));
+        close(output::num(&r[hi]), f(&want["upper"][j]), tol, &format!("{fit}: interval to, row {j}"));
+    }
     close(output::statistic(out, fit, "F statistic"), f(&want["f"]), tol, &format!("{fit}: overall F"));
     close(output::statistic(out, fit, "p-value of F"), f(&want["f_p"]), tol, &format!("{fit}: p of the overall F"));
     for t in terms {
