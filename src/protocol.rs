@@ -260,12 +260,16 @@ pub struct FitRequest {
     /// [`OptionValue::Group`]); the host's own (`name`, `level`,
     /// `intercept`, `weights`, `missing`, `data`, `base`) are not repeated
     /// here: they are the fields above, or already applied to the rows.
+    /// A column option (see [`FitRequest::option_columns`]) is here as its
+    /// text as typed (`order` → `"Week"`), so that the fit can name it.
     pub options: BTreeMap<String, OptionValue>,
     /// The values of the column options other than the host's `weights`
     /// (such as `trials=Tested` of `#logistic`), one per row sent, keyed by
     /// the option's name as the spec spells it; a row with an unusable cell
     /// there is left out like any other. Optional in the JSON (absent means
-    /// none), so protocol version 1 is unchanged.
+    /// none), so protocol version 1 is unchanged. A text column is accepted
+    /// only for `groups=`, sent as the position (1, 2, …) of each row's
+    /// level among the levels sorted alphabetically.
     #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
     pub option_columns: BTreeMap<String, Vec<f64>>,
 }

@@ -60,6 +60,30 @@ fn linear_with_text_column_and_base() {
     snapshot_of(&path, "linear-base");
 }
 
+/// Ordered data: invented weekly yields of three bays, rows interleaved
+/// (every week's bays together), fitted with the rows ordered by week
+/// within each bay, with clustered and with Newey–West standard errors.
+#[test]
+fn linear_with_ordered_rows() {
+    let n = 24u32;
+    let week: Vec<Option<f64>> = (0..n).map(|i| Some((i / 3 + 1) as f64)).collect();
+    let bay: Vec<Option<String>> = (0..n).map(|i| Some(["North", "South", "East"][i as usize % 3].to_string())).collect();
+    let light: Vec<Option<f64>> = (0..n).map(|i| Some(8.0 + ((i * 5) % 7) as f64)).collect();
+    let yield_: Vec<Option<f64>> = (0..n).map(|i| Some(3.0 + 0.4 * ((i * 5) % 7) as f64 + 0.2 * (i % 3) as f64 + 0.03 * ((i * 7) % 5) as f64 + 0.02 * (i / 3) as f64)).collect();
+    let path = tmp("linear-ordered");
+    write_mixed_table(
+        &path,
+        "Weekly",
+        &["Week", "Bay", "Light", "Yield"],
+        &[Col::Num(week), Col::Text(bay), Col::Num(light), Col::Num(yield_)],
+        &[
+            (1, 5, "#linear(Yield, Light, order=Week, groups=Bay, errors=clustered, name=clustered)"),
+            (2, 5, "#linear(Yield, Light, order=Week, groups=Bay, lags=2, errors=neweywest, name=lagged)"),
+        ],
+    );
+    snapshot_of(&path, "linear-ordered");
+}
+
 /// A quadratic fit and `#predict` on it. Invented data: y = 1 + 2x + 0.5x²
 /// plus a small fixed wobble. Today `#predict` on a polynomial fails ("the
 /// model row has 2 values for 3 coefficients"); the snapshot records that

@@ -6,11 +6,22 @@
 
 use super::{Fit, FitError};
 use crate::numeric::diagnostics::{self as diag, ErrorKind};
-use crate::numeric::{self, LsProblem};
+use crate::numeric::{self, serial, LsProblem};
 use crate::protocol::{
     Coefficient, FitOutcome, ANOVA_GROUP, FitRequest, Formula, FunctionSpec, LeastSquares, Likelihood, Link, NumberFormat, OptionValue, ParamKind, ParamSpec, Predictor, PredictorForm, RowColumn, RowRole,
     RowWarning, Statistic, TermWarning,
 };
+
+/// The option naming the column that orders the rows.
+pub const ORDER: &str = "order";
+/// The option naming the column that groups the rows.
+pub const GROUPS: &str = "groups";
+/// The option giving the number of lags.
+pub const LAGS: &str = "lags";
+/// What `errors=` takes, for messages.
+const ERRORS_HELP: &str = "errors takes classic, hc0, hc1, hc2, hc3, neweywest, clustered";
+/// Diagnostics heading: the checks of neighbouring rows.
+pub const GROUP_ORDER: &str = "Are the errors of neighbouring rows independent?";
 
 /// The label of the intercept term.
 pub const INTERCEPT: &str = "Intercept";
@@ -55,7 +66,10 @@ pub fn shared_options() -> Vec<ParamSpec> {
         param("gaps", ParamKind::Choice, Some("skip"), &["skip", "stop"], "a row with a blank, text or error cell in a column the request uses: skip it (and count it), or stop with an error"),
         param("table", ParamKind::Range, None, &[], "the data table: a sheet name or a range (default: the table on the request's sheet)"),
         ParamSpec { example: Some("against(Bay=\"East\")".into()), ..param("against", ParamKind::Group, None, &[], "the reference level of a text column, which its other levels are compared with, e.g. against(Bay=\"East\")") },
-        param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3"], "standard errors: classic (constant variance) or heteroscedasticity-consistent hc0, hc1, hc2, hc3"),
+        param("errors", ParamKind::Choice, Some("classic"), &["classic", "hc0", "hc1", "hc2", "hc3", "neweywest", "clustered"], "standard errors: classic (constant variance), heteroscedasticity-consistent hc0, hc1, hc2, hc3, neweywest (autocorrelation-consistent over the rows in order=, needs order=) or clustered (by groups=, needs groups=)"),
+        param(ORDER, ParamKind::Column, None, &[], "the column that puts the rows in order (time or sequence) for the checks of neighbouring rows and errors=neweywest (default: sheet order)"),
+        param(GROUPS, ParamKind::Column, None, &[], "a column (text or numbers) that groups the rows: neighbours are only looked for within a group, and errors=clustered clusters by it"),
+        param(LAGS, ParamKind::Integer, None, &[], "how many neighbours back the Breusch–Godfrey test and errors=neweywest look (default ⌊4(n/100)^(2/9)⌋, at least 1)"),
     ]
 }
 
@@ -235,13 +249,34 @@ impl Fit for Linear {
         let mut out = FitOutcome::default();
         let kind = match req.options.get("errors") {
             None => ErrorKind::Classic,
-            Some(OptionValue::Text(w)) => ErrorKind::parse(w)
-                .ok_or_else(|| FitError::new(format!("errors={w} is not one of the choices")).help("errors takes classic, hc0, hc1, hc2, hc3"))?,
-            Some(_) => return Err(FitError::new("errors= takes a word").help("errors takes classic, hc0, hc1, hc2, hc3")),
+            Some(OptionValue::Text(w)) => ErrorKind::parse(w).ok_or_else(|| FitError::new(format!("errors={w} is not one of the choices")).help(ERRORS_HELP))?,
+            Some(_) => return Err(FitError::new("errors= takes a word").help(ERRORS_HELP)),
         };
+        let mut ordered = Ordered::of(req, n)?;
+        ordered.allowed_for = matches!(kind, ErrorKind::NeweyWest | ErrorKind::Clustered);
         let intercept_col = req.intercept.then_some(0);
-        // The covariance every test uses: classic, or robust with errors=hc*.
-        let cov_used = if kind == ErrorKind::Classic { fit.covariance.clone() } else { diag::robust_covariance(&fit, &x, kind) };
+        // The covariance every test uses: classic, robust with errors=hc*,
+        // Newey–West or clustered; clustered tests use G − 1 degrees of
+        // freedom (G groups), the others n − p.
+        let (cov_used, df_tests) = match kind {
+            ErrorKind::Classic => (fit.covariance.clone(), fit.df_resid),
+            ErrorKind::NeweyWest => {
+                if ordered.order.is_none() {
+                    return Err(FitError::new("errors=neweywest needs the column that puts the rows in order").help("add order= with the time or sequence column, such as order=Week"));
+                }
+                (serial::newey_west_covariance(&fit, &x, &ordered.seq, ordered.lags), fit.df_resid)
+            }
+            ErrorKind::Clustered => {
+                if ordered.groups.is_none() {
+                    return Err(FitError::new("errors=clustered needs the column that groups the rows").help("add groups= with the grouping column, such as groups=Bay"));
+                }
+                if ordered.seq.groups < 2 {
+                    return Err(FitError::new("errors=clustered needs at least two groups, but the rows used are all in one").help("choose a grouping column with several groups, or another errors= choice"));
+                }
+                (serial::clustered_covariance(&fit, &x, &ordered.seq.group_of_rows()), (ordered.seq.groups - 1) as f64)
+            }
+            _ => (diag::robust_covariance(&fit, &x, kind), fit.df_resid),
+        };
         let table = if kind == ErrorKind::Classic {
             numeric::coefficient_table(&fit, req.level)
         } else {
@@ -249,15 +284,28 @@ impl Fit for Linear {
             let cov = &cov_used;
             let mut robust = fit.clone();
             robust.std_errors = (0..p).map(|j| cov[j * p + j].sqrt()).collect();
+            robust.df_resid = df_tests;
             numeric::coefficient_table(&robust, req.level)
         };
         out.standard_errors = Some(kind.label().to_string());
         if kind != ErrorKind::Classic {
-            out.notes.push(format!(
-                "standard errors, t statistics, p-values and intervals use {} heteroscedasticity-consistent standard errors (errors={})",
-                kind.label(),
-                kind.label().to_lowercase()
-            ));
+            let (what, word) = match kind {
+                ErrorKind::NeweyWest => (
+                    format!("Newey–West autocorrelation-consistent standard errors (Bartlett kernel, {} lags, no small-sample factor, rows {})", ordered.lags, ordered.describe()),
+                    "neweywest".to_string(),
+                ),
+                ErrorKind::Clustered => (
+                    format!(
+                        "standard errors clustered by {} ({} groups; small-sample factor G/(G − 1)·(n − 1)/(n − k)); t tests, intervals and F tests use G − 1 = {} degrees of freedom",
+                        ordered.groups.as_deref().unwrap_or("the groups"),
+                        ordered.seq.groups,
+                        ordered.seq.groups - 1
+                    ),
+                    "clustered".to_string(),
+                ),
+                _ => (format!("{} heteroscedasticity-consistent standard errors", kind.label()), kind.label().to_lowercase()),
+            };
+            out.notes.push(format!("standard errors, t statistics, p-values and intervals use {what} (errors={word})"));
         }
         let vif = diag::variance_inflation(&fit, &x, intercept_col);
         let standardized = diag::standardized_coefficients(&fit, &x, &req.response.values, intercept_col);
@@ -284,7 +332,7 @@ impl Fit for Linear {
             let q = idx.len() as f64;
             let w = diag::wald(&b_all, &cov_used, p, &idx)?;
             let f = w / q;
-            Some((f, q, numeric::f_sf(f, q, fit.df_resid)))
+            Some((f, q, numeric::f_sf(f, q, df_tests)))
         };
         let term_tests: Vec<TermTest> = blocks.iter().map(|(t, cols)| (t.clone(), cols.len(), wald_f(cols))).collect();
         let term_p = |j: usize| term_tests.iter().zip(&blocks).find(|(_, (_, cols))| cols.len() > 1 && cols.contains(&j)).and_then(|((_, _, t), _)| t.map(|t| t.2));
@@ -368,8 +416,11 @@ impl Fit for Linear {
                 if let Some(s) = out.statistics.iter_mut().find(|s| s.key == "f_p_value") {
                     s.value = pv;
                 }
+                if let Some(s) = out.statistics.iter_mut().find(|s| s.key == "f_df_residual") {
+                    s.value = df_tests;
+                }
             }
-            out.notes.push(format!("the F test of all the terms and the test of each term are robust Wald tests on the {} covariance, in their F form W/q; the analysis of variance stays classic", kind.label()));
+            out.notes.push(format!("the F test of all the terms and the test of each term are robust Wald tests on the {} covariance, in their F form W/q on F(q, {df_tests}); the analysis of variance stays classic", kind.label()));
         }
         // Each term given all the others, after the overall F.
         let t = GROUP_TERMS;
@@ -413,7 +464,7 @@ impl Fit for Linear {
         let dffits = diag::dffits(&fit, &external);
         let gvif: Vec<(String, f64, usize)> = blocks.iter().filter(|(_, cols)| cols.len() > 1).map(|(t, cols)| (t.clone(), diag::generalized_variance_inflation(&fit, &x, cols), cols.len())).collect();
         let design = Design { x: &x, labels: &labels, structural: &structural, vif: &vif, gvif: &gvif };
-        diagnose(&fit, &design, &cooks, &external, &mut out);
+        diagnose(&fit, &design, &ordered, &cooks, &external, &mut out);
         // The blocks in plumb's order: the questions first, comparing fits
         // and the analysis of variance last.
         let rank = |g: &str| [GROUP_COMPARE, ANOVA_GROUP].iter().position(|x| *x == g).map_or(0, |i| i + 1);
@@ -429,6 +480,105 @@ impl Fit for Linear {
         ];
         Ok(out)
     }
+}
+
+/// The rows' order and groups for the checks of neighbouring rows and the
+/// Newey–West and clustered standard errors: the columns' names as typed
+/// (`None` when not given), the sequence and the number of lags.
+struct Ordered {
+    order: Option<String>,
+    groups: Option<String>,
+    seq: serial::Sequence,
+    lags: usize,
+    /// Whether the standard errors in use allow for correlated errors
+    /// (`errors=neweywest` or `clustered`).
+    allowed_for: bool,
+}
+
+impl Ordered {
+    /// From the request's `order=`, `groups=` and `lags=`.
+    fn of(req: &FitRequest, n: usize) -> Result<Ordered, FitError> {
+        let name = |key: &str| match req.options.get(key) {
+            Some(OptionValue::Text(t)) => Some(t.clone()),
+            _ => None,
+        };
+        let (order, groups) = (req.option_columns.get(ORDER), req.option_columns.get(GROUPS));
+        let seq = serial::Sequence::new(n, order.map(Vec::as_slice), groups.map(Vec::as_slice));
+        let lags = match req.options.get(LAGS) {
+            None => serial::default_lags(n),
+            Some(OptionValue::Number(k)) if k.fract() == 0.0 && *k >= 1.0 && *k < n as f64 => *k as usize,
+            Some(OptionValue::Number(k)) => {
+                return Err(FitError::new(format!("lags={k} is not a whole number from 1 to {}", n.saturating_sub(1))).help("give how many neighbours back to look, such as lags=4"))
+            }
+            Some(_) => return Err(FitError::new("lags= takes a whole number").help("give how many neighbours back to look, such as lags=4")),
+        };
+        Ok(Ordered {
+            order: order.map(|_| name(ORDER).unwrap_or_else(|| ORDER.to_string())),
+            groups: groups.map(|_| name(GROUPS).unwrap_or_else(|| GROUPS.to_string())),
+            seq,
+            lags,
+            allowed_for: false,
+        })
+    }
+
+    /// Which order the checks use, in words ("sorted by Week within each
+    /// Bay", "in sheet order").
+    fn describe(&self) -> String {
+        match (&self.order, &self.groups) {
+            (Some(o), Some(g)) => format!("sorted by {o} within each {g}"),
+            (Some(o), None) => format!("sorted by {o}"),
+            (None, Some(g)) => format!("in sheet order within each {g}"),
+            (None, None) => "in sheet order".to_string(),
+        }
+    }
+}
+
+/// The checks of neighbouring rows (Durbin–Watson with its exact p-value,
+/// Breusch–Godfrey) on the weighted residuals `u` in the order `ordered`,
+/// with the notes saying which order was used; returns Durbin–Watson.
+fn neighbours(fit: &numeric::LsFit, x: &[f64], ordered: &Ordered, u: &[f64], out: &mut FitOutcome) -> f64 {
+    let g = GROUP_ORDER;
+    let seq = &ordered.seq;
+    let dw = serial::durbin_watson(u, seq);
+    out.statistics.push(dec("durbin_watson", "Durbin–Watson (no correlation = 2)", g, dw, 3).detail(format!("rows {}", ordered.describe())));
+    match serial::durbin_watson_p(fit, x, seq, dw) {
+        Some(p) => {
+            out.statistics.push(pval("durbin_watson_p_value", "p-value of Durbin–Watson (exact; against positive correlation)", g, p.probability));
+            if p.probability <= 2.0 * p.error {
+                out.notes.push(format!("the exact p-value of Durbin–Watson is below the accuracy of its numerical integral ({}): read it as less than that", short(2.0 * p.error)));
+            }
+        }
+        None if fit.n > serial::DW_EXACT_MAX_ROWS => out.notes.push(format!(
+            "the exact p-value of Durbin–Watson is left out: it is computed for up to {} rows (the work grows with the cube of the rows); the Breusch–Godfrey test stands in",
+            serial::DW_EXACT_MAX_ROWS
+        )),
+        None => {}
+    }
+    match serial::breusch_godfrey(fit, x, seq, ordered.lags) {
+        Some(bg) => {
+            out.statistics.push(dec("breusch_godfrey", "Breusch–Godfrey (n·R²)", g, bg.statistic, 3));
+            out.statistics.push(pval("breusch_godfrey_p_value", "p-value of Breusch–Godfrey (χ²)", g, bg.p_value));
+            out.statistics.push(count("breusch_godfrey_lags", "Lags tested by Breusch–Godfrey", g, bg.lags as f64));
+        }
+        None if u.iter().any(|v| *v != 0.0) => out.notes.push(format!(
+            "the Breusch–Godfrey test is left out: its regression of the residuals on the terms and {} lags needs more rows than columns; give fewer lags=",
+            ordered.lags
+        )),
+        None => {}
+    }
+    if ordered.order.is_none() {
+        out.notes.push(format!(
+            "the checks of neighbouring rows use the rows {}: neighbours in the sheet may not be neighbours in time; give order= with the time or sequence column",
+            ordered.describe()
+        ));
+    } else {
+        let ties = if seq.ties > 0 { format!("; {} rows share their {} with the row before and keep their sheet order", seq.ties, ordered.order.as_deref().unwrap_or(ORDER)) } else { String::new() };
+        out.notes.push(format!("the checks of neighbouring rows use the rows {}{ties}", ordered.describe()));
+    }
+    if ordered.groups.is_some() {
+        out.notes.push(format!("Durbin–Watson and Breusch–Godfrey compare neighbours within a group only ({} groups): the differences are summed within groups, and a lag reaching before a group's first row counts as 0", seq.groups));
+    }
+    dw
 }
 
 /// Durbin–Watson values outside this band draw a warning (a common rule of
@@ -474,7 +624,7 @@ struct Design<'a> {
 
 /// The residual checks, collinearity and influence statistics of a fit, and
 /// the plain-language warnings they call for.
-fn diagnose(fit: &numeric::LsFit, d: &Design, cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
+fn diagnose(fit: &numeric::LsFit, d: &Design, ordered: &Ordered, cooks: &[f64], external: &[f64], out: &mut FitOutcome) {
     let (x, labels, structural) = (d.x, d.labels, d.structural);
     let n = fit.n;
     let p = fit.coefficients.len();
@@ -496,9 +646,7 @@ fn diagnose(fit: &numeric::LsFit, d: &Design, cooks: &[f64], external: &[f64], o
         out.statistics.push(pval("bp_original_p_value", "p-value of Breusch–Pagan (original)", spread, bp.original_p));
         out.statistics.push(count("bp_df", "Degrees of freedom of Breusch–Pagan", spread, bp.df));
     }
-    let order = "Order of the residuals";
-    let dw = diag::durbin_watson(&u);
-    out.statistics.push(dec("durbin_watson", "Durbin–Watson (no correlation = 2)", order, dw, 3));
+    let dw = neighbours(fit, x, ordered, &u, out);
 
     let co = "Do the terms overlap?";
     // The scaled condition number is that of the raw design; a fit with
@@ -547,8 +695,10 @@ fn diagnose(fit: &numeric::LsFit, d: &Design, cooks: &[f64], external: &[f64], o
     if dw.is_finite() && n >= 3 && (dw < DW_BAND.0 || dw > DW_BAND.1) {
         let how = if dw < DW_BAND.0 { "neighbouring rows tend to have residuals of the same sign" } else { "neighbouring rows tend to have residuals of opposite sign" };
         out.warnings.push(format!(
-            "the residuals look correlated in row order: Durbin–Watson is {} (far from 2; below {} or above {} draws this warning), so {how}; if the rows are in time order, the standard errors may be too small",
-            short(dw), DW_BAND.0, DW_BAND.1
+            "the residuals look correlated in {}: Durbin–Watson is {} (far from 2; below {} or above {} draws this warning), so {how}; {}",
+            if ordered.order.is_some() || ordered.groups.is_some() { "the order of the rows used" } else { "row order" },
+            short(dw), DW_BAND.0, DW_BAND.1,
+            if ordered.allowed_for { "the standard errors in use allow for it" } else if ordered.order.is_some() { "the classic standard errors may be too small: errors=neweywest allows for it" } else { "if the rows are in time order, the standard errors may be too small (give order= with the time column)" }
         ));
     }
     if let Some(bp) = &bp {
@@ -637,6 +787,35 @@ mod tests {
         assert!(out.statistic("jarque_bera").is_some_and(f64::is_nan));
         assert!(out.row_warnings.is_empty());
         assert!(out.warnings.iter().all(|w| !w.contains("correlated") && !w.contains("spread")), "{:?}", out.warnings);
+    }
+
+    #[test]
+    fn ordered_options_are_checked() {
+        let x: Vec<f64> = (0..12).map(|i| i as f64).collect();
+        let y: Vec<f64> = (0..12).map(|i| 1.0 + 0.5 * i as f64 + ((i * 5) % 3) as f64).collect();
+        let plain = request(y.clone(), vec![Column::new("x", x.clone())], true, None, "neweywest");
+        let e = Linear::new().fit(&plain).expect_err("needs order=");
+        assert!(e.message.contains("order"), "{e:?}");
+        let e = Linear::new().fit(&FitRequest { options: [("errors".to_string(), OptionValue::Text("clustered".into()))].into(), ..plain.clone() }).expect_err("needs groups=");
+        assert!(e.message.contains("groups"), "{e:?}");
+        // One group only: no clustering.
+        let mut one = plain.clone();
+        one.options.insert("errors".into(), OptionValue::Text("clustered".into()));
+        one.option_columns.insert(GROUPS.into(), vec![1.0; 12]);
+        assert!(Linear::new().fit(&one).expect_err("one group").message.contains("two groups"));
+        // lags= from 1 to n − 1.
+        let mut lags = request(y, vec![Column::new("x", x)], true, None, "classic");
+        lags.options.insert(LAGS.into(), OptionValue::Number(12.0));
+        assert!(Linear::new().fit(&lags).expect_err("too many lags").message.contains("lags=12"));
+        // 10 lags + 2 columns on 12 rows: no Breusch–Godfrey, and a note.
+        lags.options.insert(LAGS.into(), OptionValue::Number(10.0));
+        let out = Linear::new().fit(&lags).expect("fits");
+        assert!(out.statistic("breusch_godfrey").is_none() && out.notes.iter().any(|n| n.contains("Breusch–Godfrey test is left out")), "{:?}", out.notes);
+        lags.options.insert(LAGS.into(), OptionValue::Number(3.0));
+        let out = Linear::new().fit(&lags).expect("fits");
+        assert_eq!(out.statistic("breusch_godfrey_lags"), Some(3.0));
+        // Without order= a note says the rows are in sheet order.
+        assert!(out.notes.iter().any(|n| n.contains("in sheet order") && n.contains("may not be neighbours in time")), "{:?}", out.notes);
     }
 
     #[test]

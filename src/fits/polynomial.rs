@@ -161,6 +161,27 @@ mod tests {
     }
 
     #[test]
+    fn the_order_and_newey_west_errors_reach_the_linear_fit() {
+        // The rows sent in reverse time order: order= puts them right, so
+        // Durbin–Watson equals that of the rows in time order (the
+        // statistic is the same read forwards or backwards: a check of the
+        // plumbing, not of a figure).
+        let x: Vec<f64> = (0..15).map(|i| i as f64).collect();
+        let y: Vec<f64> = x.iter().map(|v| 1.0 + 0.3 * v - 0.02 * v * v + ((*v as i32 * 7) % 4) as f64 * 0.1).collect();
+        let forward = Polynomial::new().fit(&request(&x, &y, 2.0)).expect("fits");
+        let (xr, yr): (Vec<f64>, Vec<f64>) = (x.iter().rev().copied().collect(), y.iter().rev().copied().collect());
+        let mut req = request(&xr, &yr, 2.0);
+        req.options.insert("order".into(), OptionValue::Text("Day".into()));
+        req.options.insert("errors".into(), OptionValue::Text("neweywest".into()));
+        req.option_columns.insert("order".into(), xr.iter().map(|v| 100.0 - v).collect());
+        let out = Polynomial::new().fit(&req).expect("fits");
+        let dw = |o: &FitOutcome| o.statistics.iter().find(|s| s.key == "durbin_watson").cloned().expect("Durbin–Watson");
+        assert!((dw(&out).value - dw(&forward).value).abs() < 1e-12);
+        assert_eq!(dw(&out).detail.as_deref(), Some("rows sorted by Day"));
+        assert_eq!(out.standard_errors.as_deref(), Some("Newey–West"));
+    }
+
+    #[test]
     fn bad_degree_and_too_few_rows_are_errors() {
         let x = [1.0, 2.0, 3.0];
         let y = [1.0, 4.0, 9.0];

@@ -33,18 +33,10 @@ pub fn weighted_residuals(fit: &LsFit) -> Vec<f64> {
 /// for serial correlation in least squares regression I", *Biometrika* 37,
 /// 409–428, eq. 3). `d ≈ 2(1 − ρ̂₁)`: near 2 without first-order
 /// autocorrelation, towards 0 for positive and towards 4 for negative.
-/// NaN for fewer than two residuals or when all are zero.
+/// NaN for fewer than two residuals or when all are zero. The rows in
+/// another order or within groups: [`super::serial::durbin_watson`].
 pub fn durbin_watson(u: &[f64]) -> f64 {
-    if u.len() < 2 {
-        return f64::NAN;
-    }
-    let num: f64 = u.windows(2).map(|w| (w[1] - w[0]) * (w[1] - w[0])).sum();
-    let den: f64 = u.iter().map(|v| v * v).sum();
-    if den > 0.0 {
-        num / den
-    } else {
-        f64::NAN
-    }
+    super::serial::durbin_watson(u, &super::serial::Sequence::new(u.len(), None, None))
 }
 
 /// The Breusch–Pagan test of constant error variance against a variance
@@ -360,6 +352,11 @@ pub enum ErrorKind {
     Hc2,
     /// `uᵢ²/(1 − hᵢ)²` in place of `uᵢ²`.
     Hc3,
+    /// Newey–West, autocorrelation-consistent over the ordered rows
+    /// ([`super::serial::newey_west_covariance`]).
+    NeweyWest,
+    /// Clustered by a grouping column ([`super::serial::clustered_covariance`]).
+    Clustered,
 }
 
 impl ErrorKind {
@@ -371,6 +368,8 @@ impl ErrorKind {
             "hc1" => Some(ErrorKind::Hc1),
             "hc2" => Some(ErrorKind::Hc2),
             "hc3" => Some(ErrorKind::Hc3),
+            "neweywest" => Some(ErrorKind::NeweyWest),
+            "clustered" => Some(ErrorKind::Clustered),
             _ => None,
         }
     }
@@ -383,6 +382,8 @@ impl ErrorKind {
             ErrorKind::Hc1 => "HC1",
             ErrorKind::Hc2 => "HC2",
             ErrorKind::Hc3 => "HC3",
+            ErrorKind::NeweyWest => "Newey–West",
+            ErrorKind::Clustered => "clustered",
         }
     }
 }
@@ -424,7 +425,9 @@ pub fn wald(b: &[f64], cov: &[f64], p: usize, idx: &[usize]) -> Option<f64> {
 /// scaled to unit length; `PivotedQr` in the given order): with thin `Q`
 /// and `R`, `V = R⁻¹ (Qᵀ Ω Q) R⁻ᵀ`, unscaled afterwards. This avoids the
 /// normal equations, so the error grows like the scaled condition number,
-/// not its square. `ErrorKind::Classic` returns the fit's own covariance.
+/// not its square. `ErrorKind::Classic` returns the fit's own covariance;
+/// Newey–West and clustered errors need the rows' order or groups
+/// ([`super::serial`]) and are NaN here.
 /// Rows with leverage at 1 make HC2/HC3 undefined (NaN).
 pub fn robust_covariance(fit: &LsFit, x: &[f64], kind: ErrorKind) -> Vec<f64> {
     let n = fit.n;
@@ -432,11 +435,49 @@ pub fn robust_covariance(fit: &LsFit, x: &[f64], kind: ErrorKind) -> Vec<f64> {
     if kind == ErrorKind::Classic {
         return fit.covariance.clone();
     }
-    let mut out = vec![f64::NAN; p * p];
+    let Some((a, kept, scale)) = scaled_design(fit, x) else { return vec![f64::NAN; p * p] };
+    let u = weighted_residuals(fit);
+    let nf = n as f64;
+    let omega: Vec<f64> = (0..n)
+        .map(|i| {
+            let u2 = u[i] * u[i];
+            let h = fit.leverage[i];
+            match kind {
+                ErrorKind::Hc0 | ErrorKind::Classic => u2,
+                // These need the rows' order or groups: see `super::serial`.
+                ErrorKind::NeweyWest | ErrorKind::Clustered => f64::NAN,
+                ErrorKind::Hc1 => u2 * nf / fit.df_resid,
+                ErrorKind::Hc2 => u2 / (1.0 - h),
+                ErrorKind::Hc3 => u2 / ((1.0 - h) * (1.0 - h)),
+            }
+        })
+        .collect();
+    // M = Qᵀ Ω Q (k × k).
+    sandwich(fit, a, &kept, &scale, &|qcols: &[&[f64]], _u: &[f64]| {
+        let k = qcols.len();
+        let mut m = vec![0.0; k * k];
+        for a in 0..k {
+            for b in a..k {
+                let s: f64 = (0..n).map(|i| omega[i] * qcols[a][i] * qcols[b][i]).sum();
+                m[b * k + a] = s;
+                m[a * k + b] = s;
+            }
+        }
+        m
+    })
+}
+
+/// The kept (not aliased) columns of the weighted design `W^½X`, each
+/// scaled to unit length: the column-major `n × k` buffer, the kept
+/// column indices and the scale factors; `None` when nothing is kept or the
+/// design does not match the fit.
+pub(crate) fn scaled_design(fit: &LsFit, x: &[f64]) -> Option<(Vec<f64>, Vec<usize>, Vec<f64>)> {
+    let n = fit.n;
+    let p = fit.coefficients.len();
     let kept: Vec<usize> = (0..p).filter(|&j| !fit.aliased[j]).collect();
     let k = kept.len();
     if k == 0 || x.len() != n * p {
-        return out;
+        return None;
     }
     let sw: Option<Vec<f64>> = fit.weights.as_ref().map(|w| w.iter().map(|v| v.sqrt()).collect());
     let mut a = Vec::with_capacity(n * k);
@@ -453,6 +494,26 @@ pub fn robust_covariance(fit: &LsFit, x: &[f64], kind: ErrorKind) -> Vec<f64> {
         a[start..].iter_mut().for_each(|v| *v *= d);
         scale.push(d);
     }
+    Some((a, kept, scale))
+}
+
+/// The "meat" of a sandwich covariance: from the thin `Q` of the scaled
+/// weighted design (its `k` columns, each of length `n`) and the weighted
+/// residuals `u`, the `k × k` column-major matrix `Qᵀ S Q`, with `S` the
+/// estimated covariance of the errors.
+pub type Meat<'a> = dyn Fn(&[&[f64]], &[f64]) -> Vec<f64> + 'a;
+
+/// A sandwich covariance `V = (XᵀX)⁻¹ XᵀSX (XᵀX)⁻¹` on the weighted design,
+/// through the thin QR `W^½X D = QR` of its kept columns scaled to unit
+/// length (`D` the scale): `V = D R⁻¹ (QᵀSQ) R⁻ᵀ D`, where `meat` gives
+/// `QᵀSQ`. `p × p` column-major in the caller's column order, NaN in the
+/// rows and columns of aliased columns. No normal equations: the error
+/// grows like the scaled condition number, not its square.
+pub(crate) fn sandwich(fit: &LsFit, a: Vec<f64>, kept: &[usize], scale: &[f64], meat: &Meat) -> Vec<f64> {
+    let n = fit.n;
+    let p = fit.coefficients.len();
+    let k = kept.len();
+    let mut out = vec![f64::NAN; p * p];
     let mut qr = PivotedQr::factor(a, n, k, Pivoting::InOrder, 0.0, 0.0);
     if qr.rank < k {
         return out;
@@ -462,29 +523,8 @@ pub fn robust_covariance(fit: &LsFit, x: &[f64], kind: ErrorKind) -> Vec<f64> {
     let order: Vec<usize> = qr.cols[..k].to_vec();
     qr.form_thin_q();
     let u = weighted_residuals(fit);
-    let nf = n as f64;
-    let omega: Vec<f64> = (0..n)
-        .map(|i| {
-            let u2 = u[i] * u[i];
-            let h = fit.leverage[i];
-            match kind {
-                ErrorKind::Hc0 | ErrorKind::Classic => u2,
-                ErrorKind::Hc1 => u2 * nf / fit.df_resid,
-                ErrorKind::Hc2 => u2 / (1.0 - h),
-                ErrorKind::Hc3 => u2 / ((1.0 - h) * (1.0 - h)),
-            }
-        })
-        .collect();
-    // M = Qᵀ Ω Q (k × k).
     let qcols: Vec<&[f64]> = (0..k).map(|a| qr.q_column(a)).collect();
-    let mut m = vec![0.0; k * k];
-    for a in 0..k {
-        for b in a..k {
-            let s: f64 = (0..n).map(|i| omega[i] * qcols[a][i] * qcols[b][i]).sum();
-            m[b * k + a] = s;
-            m[a * k + b] = s;
-        }
-    }
+    let mut m = meat(&qcols, &u);
     // Y = R⁻¹ M (column by column), then V = R⁻¹ Yᵀ = R⁻¹ M R⁻ᵀ.
     for b in 0..k {
         solve_upper(&r, k, &mut m[b * k..(b + 1) * k]);

@@ -14,7 +14,9 @@
 //! (power columns fitted in a centred, scaled basis), [`inference`]
 //! (distributions and tests built on statrs), [`diagnostics`] (residual
 //! checks, collinearity, influence and heteroscedasticity-consistent
-//! standard errors on a finished fit), [`robust`] (M-estimation by
+//! standard errors on a finished fit), [`serial`] (ordered data: Durbin–Watson
+//! with its exact p-value, Breusch–Godfrey, Newey–West and clustered
+//! standard errors), [`robust`] (M-estimation by
 //! iteratively reweighted least squares).
 
 pub mod dd;
@@ -26,6 +28,7 @@ pub mod nls;
 pub mod poly;
 pub mod qr;
 pub mod robust;
+pub mod serial;
 
 #[cfg(test)]
 mod tests;

@@ -192,6 +192,20 @@ const GAPS: &str = "gaps";
 const TABLE: &str = "table";
 const AGAINST: &str = "against";
 
+/// The option naming a column that groups the rows (`groups=Bay`): unlike
+/// other column options it may be a text column, sent as [`level_codes`].
+const GROUPS: &str = "groups";
+
+/// A text column over the kept rows as numbers: each level's position
+/// (1, 2, …) among the levels sorted alphabetically (spellings that differ
+/// only in case or spacing are one level, as for terms).
+fn level_codes(c: &eval::Cat, keep: &[usize]) -> Vec<f64> {
+    let key = |i: usize| c.levels[i].as_deref().map(crate::recipe::level_key);
+    let levels: std::collections::BTreeSet<String> = keep.iter().filter_map(|&i| key(i)).collect();
+    let levels: Vec<String> = levels.into_iter().collect();
+    keep.iter().map(|&i| key(i).and_then(|k| levels.iter().position(|l| *l == k)).map_or(f64::NAN, |p| p as f64 + 1.0)).collect()
+}
+
 /// The option of a yes-or-no fit naming the level of a text response
 /// counted as the event (`event="pass"`).
 const EVENT: &str = "event";
@@ -472,7 +486,12 @@ pub fn resolve(
     // An option column's gaps leave rows out as a term's do.
     let mut option_columns = Vec::new();
     for (name, e) in &option_exprs {
-        option_columns.push((name.to_string(), e.span, Factor::Num(typed(text, e.span), ctx.numeric(e, &frame)?)));
+        let f = match ctx.eval(e, &frame)? {
+            // A grouping column may hold text: its levels become numbers below.
+            Factor::Cat(c) if *name == GROUPS => Factor::Cat(c),
+            _ => Factor::Num(typed(text, e.span), ctx.numeric(e, &frame)?),
+        };
+        option_columns.push((name.to_string(), e.span, f));
     }
 
     // 4. Missing rows.
@@ -525,7 +544,9 @@ pub fn resolve(
         options: bound
             .values
             .iter()
-            .filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str()) && !option_exprs.iter().any(|o| o.0 == k.as_str()))
+            // A column option is also sent here as its text as typed
+            // (`order` → "Week"), so the fit can name it.
+            .filter(|(k, _)| !HOST_OPTIONS.contains(&k.as_str()))
             .filter(|(k, _)| event_level.is_none() || k.as_str() != EVENT)
             .map(|(k, v)| (k.clone(), v.clone()))
             .chain(event_level.iter().map(|l| (EVENT_LEVEL.to_string(), OptionValue::Text(l.clone()))))
@@ -534,6 +555,7 @@ pub fn resolve(
             .iter()
             .filter_map(|(name, _, f)| match f {
                 Factor::Num(_, v) => Some((name.clone(), pick(&v.values))),
+                Factor::Cat(c) => Some((name.clone(), level_codes(c, &keep))),
                 _ => None,
             })
             .collect(),
