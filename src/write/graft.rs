@@ -738,20 +738,23 @@ struct Shift {
     sst: u32,
 }
 
-fn shifted(v: Option<String>, by: u32) -> Option<String> {
-    v.and_then(|s| s.parse::<u32>().ok()).map(|x| (x + by).to_string())
-}
 
 /// Rewrites one event of plumb's sheet XML: style indices shifted, the
 /// prefix added; `in_shared` tracks whether the text is a shared-string
 /// index.
-fn shift_event(ev: Event<'_>, shift: Shift, prefix: &str, state: &mut (bool, bool)) -> R<Event<'static>> {
+fn shift_event<'a>(ev: Event<'a>, shift: Shift, prefix: &str, state: &mut (bool, bool)) -> R<Event<'a>> {
     Ok(match ev {
-        Event::Start(e) => Event::Start(shift_start(&e, shift, prefix, state)?),
+        Event::Start(e) => match shift_start(&e, shift, prefix, state)? {
+            Some(ne) => Event::Start(ne),
+            None => Event::Start(e),
+        },
         Event::Empty(e) => {
             let ne = shift_start(&e, shift, prefix, state)?;
             state.0 = false;
-            Event::Empty(ne)
+            match ne {
+                Some(ne) => Event::Empty(ne),
+                None => Event::Empty(e),
+            }
         }
         Event::End(e) => {
             match local_of(e.name().0) {
@@ -759,42 +762,82 @@ fn shift_event(ev: Event<'_>, shift: Shift, prefix: &str, state: &mut (bool, boo
                 "v" => state.1 = false,
                 _ => {}
             }
-            Event::End(reend(&e, prefix))
+            if prefix.is_empty() {
+                Event::End(e)
+            } else {
+                Event::End(reend(&e, prefix))
+            }
         }
         Event::Text(t) if state.0 && state.1 => {
             let n: u32 = t.trim().parse().map_err(|_| GraftError("a shared-string index is not a number".into()))?;
             Event::Text(BytesText::from_escaped((n + shift.sst).to_string()))
         }
-        other => other.into_owned(),
+        other => other,
     })
 }
 
-fn shift_start(e: &BytesStart, shift: Shift, prefix: &str, state: &mut (bool, bool)) -> R<BytesStart<'static>> {
+/// The raw value of an attribute, without allocating.
+fn raw_attr<'b>(e: &'b BytesStart, key: &str) -> R<Option<Cow<'b, str>>> {
+    Ok(e.try_get_attribute(key)?.map(|a| a.value))
+}
+
+/// The start tag with its style indices shifted and the prefix added;
+/// `None` when it needs neither.
+fn shift_start(e: &BytesStart, shift: Shift, prefix: &str, state: &mut (bool, bool)) -> R<Option<BytesStart<'static>>> {
     let l = local_of(e.name().0);
-    let mut set = Vec::new();
-    match l {
-        "c" | "row" => {
-            if let Some(v) = shifted(attr(e, "s")?, shift.xf) {
-                set.push(("s", v));
-            }
-            if l == "c" {
-                state.0 = attr(e, "t")?.as_deref() == Some("s");
-            }
+    let key = match l {
+        "c" | "row" => "s",
+        "col" => "style",
+        "cfRule" => "dxfId",
+        "v" => {
+            state.1 = true;
+            ""
         }
-        "col" => {
-            if let Some(v) = shifted(attr(e, "style")?, shift.xf) {
-                set.push(("style", v));
-            }
-        }
-        "cfRule" => {
-            if let Some(v) = shifted(attr(e, "dxfId")?, shift.dxf) {
-                set.push(("dxfId", v));
-            }
-        }
-        "v" => state.1 = true,
-        _ => {}
+        _ => "",
+    };
+    if l == "c" {
+        state.0 = raw_attr(e, "t")?.as_deref() == Some("s");
     }
-    restart(e, prefix, &set, &[])
+    let by = if l == "cfRule" { shift.dxf } else { shift.xf };
+    let set: Vec<(&str, String)> = if key.is_empty() {
+        Vec::new()
+    } else {
+        match raw_attr(e, key)?.and_then(|v| v.parse::<u32>().ok()) {
+            Some(x) => vec![(key, (x + by).to_string())],
+            None => Vec::new(),
+        }
+    };
+    if set.is_empty() && prefix.is_empty() {
+        return Ok(None);
+    }
+    restart(e, prefix, &set, &[]).map(Some)
+}
+
+/// Writes an element whose start `first` was just read, and everything up to
+/// its end, each event passed through `f`, into `out`.
+fn copy_element<B: std::io::BufRead>(rd: &mut Reader<B>, first: Event<'_>, out: &mut Vec<u8>, f: &mut dyn FnMut(Event<'_>) -> R<Event<'_>>) -> R<()> {
+    let empty = matches!(first, Event::Empty(_));
+    let mut w = Writer::new(out);
+    let ev = f(first)?;
+    w.write_event(ev).map_err(xml_err)?;
+    if empty {
+        return Ok(());
+    }
+    let mut depth = 1usize;
+    let mut buf = Vec::new();
+    while depth > 0 {
+        buf.clear();
+        let ev = rd.read_event_into(&mut buf)?;
+        match &ev {
+            Event::Start(_) => depth += 1,
+            Event::End(_) => depth -= 1,
+            Event::Eof => return Err(GraftError("a part's XML ends early".into())),
+            _ => {}
+        }
+        let ev = f(ev)?;
+        w.write_event(ev).map_err(xml_err)?;
+    }
+    Ok(())
 }
 
 /// Copies one of plumb's result sheets with its indices shifted.
@@ -817,7 +860,14 @@ fn copy_result_sheet<W: Write>(src: &mut dyn Read, out: &mut W, shift: Shift) ->
 
 /// One row of plumb's overlay sheet: its number (zero-based) and its
 /// cells (column, XML).
-type PlumbRow = (u32, Vec<(u32, Vec<u8>)>);
+type PlumbRow = (u32, Cells);
+
+/// A row's cells as one buffer and each cell's (column, start, end) in it.
+#[derive(Debug, Default)]
+struct Cells {
+    xml: Vec<u8>,
+    at: Vec<(u32, usize, usize)>,
+}
 
 /// The rows of plumb's overlay sheet, read one at a time.
 struct PlumbRows<B: std::io::BufRead> {
@@ -886,21 +936,20 @@ impl<B: std::io::BufRead> PlumbRows<B> {
             match &ev {
                 Event::Start(e) | Event::Empty(e) if local_of(e.name().0) == "row" => {
                     let r: u32 = attr(e, "r")?.and_then(|s| s.parse().ok()).ok_or_else(|| GraftError("a row of plumb's sheet has no number".into()))?;
-                    let mut cells = Vec::new();
+                    let mut cells = Cells::default();
                     if matches!(ev, Event::Start(_)) {
+                        let mut b = Vec::new();
                         loop {
-                            let mut b = Vec::new();
-                            let c = self.rd.read_event_into(&mut b)?.into_owned();
+                            b.clear();
+                            let c = self.rd.read_event_into(&mut b)?;
                             match &c {
                                 Event::Start(ce) | Event::Empty(ce) if local_of(ce.name().0) == "c" => {
-                                    let at = attr(ce, "r")?.and_then(|s| parse_ref(&s)).ok_or_else(|| GraftError("a cell of plumb's sheet has no reference".into()))?;
-                                    let tree = subtree(&mut self.rd, &mut Vec::new(), c.clone())?;
-                                    let mut w = Writer::new(Vec::new());
+                                    let at = raw_attr(ce, "r")?.and_then(|s| parse_ref(&s)).ok_or_else(|| GraftError("a cell of plumb's sheet has no reference".into()))?;
+                                    let start = cells.xml.len();
                                     let mut st = (false, false);
-                                    for x in tree {
-                                        w.write_event(shift_event(x, self.shift, &self.prefix, &mut st)?).map_err(xml_err)?;
-                                    }
-                                    cells.push((at.1, w.into_inner()));
+                                    let (shift, prefix) = (self.shift, self.prefix.clone());
+                                    copy_element(&mut self.rd, c, &mut cells.xml, &mut |x| shift_event(x, shift, &prefix, &mut st))?;
+                                    cells.at.push((at.1, start, cells.xml.len()));
                                 }
                                 Event::End(_) => break,
                                 Event::Eof => return Err(GraftError("plumb's sheet ends early".into())),
@@ -1117,8 +1166,8 @@ fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, 
                     let (_, cells) = plumb.take()?.unwrap_or_default();
                     let ne = restart(e, "", &[("r", (r + 1).to_string())], &["spans"])?;
                     w.write_event(Event::Start(ne)).map_err(xml_err)?;
-                    let own = if empty { Vec::new() } else { own_cells(&mut rd, r)? };
-                    write_merged_cells(&mut w, own, cells)?;
+                    let own = if empty { Cells::default() } else { own_cells(&mut rd, r)? };
+                    write_merged_cells(&mut w, &own, &cells)?;
                     w.write_event(Event::End(BytesEnd::new(format!("{prefix}row")))).map_err(xml_err)?;
                 } else {
                     let ne = if attr(e, "r")?.is_none() { restart(e, "", &[("r", (r + 1).to_string())], &[])? } else { e.clone().into_owned() };
@@ -1226,50 +1275,46 @@ fn flush_rows<B: std::io::BufRead, W: Write>(w: &mut XmlOut<W>, plumb: &mut Plum
         }
         let (r, cells) = plumb.take()?.unwrap_or_default();
         w.get_mut().write_all(format!("<{prefix}row r=\"{}\">", r + 1).as_bytes()).map_err(xml_err)?;
-        for (_, x) in cells {
-            w.get_mut().write_all(&x).map_err(xml_err)?;
-        }
+        w.get_mut().write_all(&cells.xml).map_err(xml_err)?;
         w.get_mut().write_all(format!("</{prefix}row>").as_bytes()).map_err(xml_err)?;
     }
     Ok(())
 }
 
-/// The input's cells of one row (column, XML with its reference made
-/// explicit), read up to `</row>`.
-fn own_cells<B: std::io::BufRead>(rd: &mut Reader<B>, row: u32) -> R<Vec<(u32, Vec<u8>)>> {
-    let mut out = Vec::new();
+/// The input's cells of one row, each with its reference made explicit,
+/// read up to `</row>`; anything else in the row (extensions) is kept
+/// after the cells, as column `u32::MAX`.
+fn own_cells<B: std::io::BufRead>(rd: &mut Reader<B>, row: u32) -> R<Cells> {
+    let mut out = Cells::default();
     let mut last: Option<u32> = None;
+    let mut b = Vec::new();
     loop {
-        let mut b = Vec::new();
-        let ev = rd.read_event_into(&mut b)?.into_owned();
+        b.clear();
+        let ev = rd.read_event_into(&mut b)?;
         match &ev {
             Event::Start(e) | Event::Empty(e) if local_of(e.name().0) == "c" => {
-                let (col, explicit) = match attr(e, "r")?.and_then(|s| parse_ref(&s)) {
-                    Some((_, c)) => (c, true),
-                    None => (last.map(|x| x + 1).unwrap_or(0), false),
+                let found = raw_attr(e, "r")?.and_then(|s| parse_ref(&s));
+                let col = match found {
+                    Some((_, c)) => c,
+                    None => last.map(|x| x + 1).unwrap_or(0),
                 };
                 last = Some(col);
-                let mut tree = subtree(rd, &mut Vec::new(), ev.clone())?;
-                if !explicit {
+                let start = out.xml.len();
+                let first = if found.is_none() {
                     let ne = restart(e, "", &[("r", a1(row, col))], &[])?;
-                    tree[0] = if matches!(tree[0], Event::Empty(_)) { Event::Empty(ne) } else { Event::Start(ne) };
-                }
-                let mut w = Writer::new(Vec::new());
-                for x in tree {
-                    w.write_event(x).map_err(xml_err)?;
-                }
-                out.push((col, w.into_inner()));
+                    if matches!(ev, Event::Empty(_)) { Event::Empty(ne) } else { Event::Start(ne) }
+                } else {
+                    ev.clone()
+                };
+                copy_element(rd, first, &mut out.xml, &mut |x| Ok(x))?;
+                out.at.push((col, start, out.xml.len()));
             }
             Event::End(_) => return Ok(out),
             Event::Eof => return Err(GraftError("a row ends early".into())),
-            // Row-level extensions are kept after the cells.
-            Event::Start(_) => {
-                let tree = subtree(rd, &mut Vec::new(), ev.clone())?;
-                let mut w = Writer::new(Vec::new());
-                for x in tree {
-                    w.write_event(x).map_err(xml_err)?;
-                }
-                out.push((u32::MAX, w.into_inner()));
+            Event::Start(_) | Event::Empty(_) => {
+                let start = out.xml.len();
+                copy_element(rd, ev.clone(), &mut out.xml, &mut |x| Ok(x))?;
+                out.at.push((u32::MAX, start, out.xml.len()));
             }
             _ => {}
         }
@@ -1277,22 +1322,31 @@ fn own_cells<B: std::io::BufRead>(rd: &mut Reader<B>, row: u32) -> R<Vec<(u32, V
 }
 
 /// One row's cells: the input's, with plumb's replacing the same column and
-/// inserted in column order.
-fn write_merged_cells<W: Write>(w: &mut XmlOut<W>, own: Vec<(u32, Vec<u8>)>, plumb: Vec<(u32, Vec<u8>)>) -> R<()> {
-    let mut merged: BTreeMap<u32, Vec<u8>> = BTreeMap::new();
-    let mut tail = Vec::new();
-    for (c, x) in own {
-        if c == u32::MAX {
-            tail.push(x);
+/// inserted in column order (both lists are in column order, as the format
+/// requires, §18.3.1.4).
+fn write_merged_cells<W: Write>(w: &mut XmlOut<W>, own: &Cells, plumb: &Cells) -> R<()> {
+    let out = w.get_mut();
+    let (mut i, mut j) = (0, 0);
+    while i < own.at.len() || j < plumb.at.len() {
+        let oc = own.at.get(i).map(|x| x.0);
+        let pc = plumb.at.get(j).map(|x| x.0);
+        let take_plumb = match (oc, pc) {
+            (Some(o), Some(p)) => p <= o,
+            (None, Some(_)) => true,
+            _ => false,
+        };
+        if take_plumb {
+            let (c, s, e) = plumb.at[j];
+            out.write_all(&plumb.xml[s..e]).map_err(xml_err)?;
+            if oc == Some(c) {
+                i += 1;
+            }
+            j += 1;
         } else {
-            merged.insert(c, x);
+            let (_, s, e) = own.at[i];
+            out.write_all(&own.xml[s..e]).map_err(xml_err)?;
+            i += 1;
         }
-    }
-    for (c, x) in plumb {
-        merged.insert(c, x);
-    }
-    for x in merged.values().chain(tail.iter()) {
-        w.get_mut().write_all(x).map_err(xml_err)?;
     }
     Ok(())
 }
