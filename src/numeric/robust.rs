@@ -477,7 +477,10 @@ impl SplitMix {
 /// Yohai 2006): weights `ψ̃(zᵢ)/zᵢ ∝ (1 − (zᵢ/c)²)²` at `zᵢ = rᵢ/s`, a
 /// weighted least squares solve by QR, and the M-scale of the new
 /// residuals. `None` when too few rows keep a weight.
-fn s_step(pr: &RobustProblem, resid: &[f64], scale: f64) -> Option<(Vec<f64>, Vec<f64>, Vec<f64>, f64)> {
+/// Coefficients, fitted values, residuals and M-scale after one step.
+type SStep = (Vec<f64>, Vec<f64>, Vec<f64>, f64);
+
+fn s_step(pr: &RobustProblem, resid: &[f64], scale: f64) -> Option<SStep> {
     let w: Vec<f64> = resid.iter().map(|r| Loss::Bisquare.weight(r / scale, S_TUNING)).collect();
     let beta = weighted_step(pr, &w, 0).ok()?;
     let (fitted, resid) = residuals_of(pr, &beta);
