@@ -92,7 +92,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let fit_mb = peak_mb();
     assert!(!summary.any_failed(), "{:?}", summary.problems);
     let t = Instant::now();
-    let info = RunInfo { version: env!("CARGO_PKG_VERSION").into(), input_name: "bench".into(), input_sha256: String::new(), time: String::new() };
+    let info = RunInfo { version: env!("CARGO_PKG_VERSION").into(), input_name: "bench".into(), input_sha256: String::new(), time: String::new(), sheets: None };
     let laid = lay_out(&book, &summary.reports, &info);
     let opts = WriteOptions { created_unix: 0, zip_level: 3 };
     if values_only {

@@ -512,6 +512,7 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         input_name: file_label(&config.input),
         input_sha256: sha,
         time: iso_time(created),
+        sheets: None,
     };
     // Told from the content, not the name: an ods saved as .xlsx still has
     // OpenFormula syntax, which would be a broken formula in xlsx.
@@ -519,6 +520,10 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     // An xlsx or xlsm input keeps its own sheets exactly; other formats are
     // read for their values and formulas only.
     let keep_own = format == read::Format::Xlsx && write::can_keep(&config.input, &book.sheets.iter().map(|g| g.name.clone()).collect::<Vec<_>>()).is_ok();
+    let info = RunInfo { sheets: Some(sheets_carried(format, keep_own).into()), ..info };
+    if !keep_own {
+        summary.problems.push(Problem::note(format!("{}; the results are complete", sheets_carried(format, keep_own))).in_file(file_label(&config.input)));
+    }
     let lay_out = |reports: &[Report]| layout::Book { keep_formulas, ..layout::lay_out(&book, reports, &info) };
     let mut laid = lay_out(&summary.reports);
     // A part the output cannot hold (a chart, a calculator, a list) costs
@@ -568,6 +573,17 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     }
     summary.output = Some(out);
     Ok(summary)
+}
+
+/// How the input's own sheets reach the output, in plain words (About
+/// sheet, and a note when not kept exactly).
+fn sheets_carried(format: read::Format, kept: bool) -> &'static str {
+    match (format, kept) {
+        (_, true) => "kept exactly as they are in the input (styles, widths, formats, merges, notes, images, charts, names, formulas); plumb only adds its results",
+        (read::Format::Xlsx, false) => "written from their values and formulas only: the input's package could not be kept as it is",
+        (read::Format::Ods, false) => "written from their values only (OpenDocument formulas and the sheets' formats, widths, merges, notes, images and charts are not carried over)",
+        (_, false) => "written from their values and formulas only (this file format's formats, widths, merges, notes, images and charts are not carried over)",
+    }
 }
 
 /// Records a part of the output that was left out as a warning at the

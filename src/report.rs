@@ -185,5 +185,8 @@ pub struct RunInfo {
     pub input_sha256: String,
     /// Time of the run, as text (UTC, ISO 8601).
     pub time: String,
+    /// How the input's own sheets were carried over, in plain words, for
+    /// the About sheet (`None`: not said).
+    pub sheets: Option<String>,
 }
 

@@ -240,3 +240,51 @@ fn a_rich_workbook_keeps_every_part_and_setting() {
         let _ = std::fs::remove_dir_all(&d);
     }
 }
+
+/// An xlsm input: its sheets are kept, its macros are not (an .xlsx output
+/// cannot hold them), and the run says so. The macro part is added to a
+/// generated workbook by hand, as the format lays it out (ECMA-376 with the
+/// macro-enabled content type and the vbaProject relationship).
+#[test]
+fn an_xlsm_input_keeps_its_sheets_and_says_the_macros_are_left_out() {
+    use std::io::Write;
+    let d = scratch("keep-xlsm");
+    let plain = d.join("plain.xlsx");
+    rich_workbook(&plain);
+    let input = d.join("allotment.xlsm");
+    let mut z = zip::ZipWriter::new(std::fs::File::create(&input).unwrap());
+    let opts = zip::write::SimpleFileOptions::default();
+    for (name, bytes) in parts(&plain) {
+        let bytes = match name.as_str() {
+            "[Content_Types].xml" => String::from_utf8(bytes)
+                .unwrap()
+                .replace("application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml", "application/vnd.ms-excel.sheet.macroEnabled.main+xml")
+                .replace("</Types>", "<Default Extension=\"bin\" ContentType=\"application/vnd.ms-office.vbaProject\"/></Types>")
+                .into_bytes(),
+            "xl/_rels/workbook.xml.rels" => String::from_utf8(bytes)
+                .unwrap()
+                .replace("</Relationships>", "<Relationship Id=\"rIdMacros\" Type=\"http://schemas.microsoft.com/office/2006/relationships/vbaProject\" Target=\"vbaProject.bin\"/></Relationships>")
+                .into_bytes(),
+            _ => bytes,
+        };
+        z.start_file(name, opts).unwrap();
+        z.write_all(&bytes).unwrap();
+    }
+    z.start_file("xl/vbaProject.bin", opts).unwrap();
+    z.write_all(b"not a real macro project; only its presence matters here").unwrap();
+    z.finish().unwrap();
+    let out = d.join("allotment.xlsm-fitted.xlsx");
+    let s = run_to(&input, &out);
+    assert!(s.problems.iter().any(|p| p.message.contains("macros")), "{:?}", s.problems);
+    assert!(!s.problems.iter().any(|p| p.message.contains("values only")), "{:?}", s.problems);
+    let b = parts(&out);
+    assert!(!b.contains_key("xl/vbaProject.bin"));
+    let types = String::from_utf8(b["[Content_Types].xml"].clone()).unwrap();
+    assert!(!types.contains("macroEnabled") && types.contains("spreadsheetml.sheet.main+xml"), "{types}");
+    let rels = String::from_utf8(b["xl/_rels/workbook.xml.rels"].clone()).unwrap();
+    assert!(!rels.contains("vbaProject"), "{rels}");
+    // The sheets are kept as in the plain case.
+    assert_eq!(b.get("xl/worksheets/sheet2.xml"), parts(&plain).get("xl/worksheets/sheet2.xml"));
+    common::faithful::assert_faithful(&input, &out);
+    let _ = std::fs::remove_dir_all(&d);
+}

@@ -73,7 +73,7 @@ fn logit_and_log_calculators_recalculate_to_predict() {
     let (b, pb) = fit_and_prediction("counts", Link::Log, [0.4, 0.12], 7);
     let reports = [a, b, pa, pb];
     let book = Workbook { sheets: vec![Grid::new("Data")] };
-    let info = RunInfo { version: "0".into(), input_name: "links.xlsx".into(), input_sha256: String::new(), time: "2026-01-01 00:00:00".into() };
+    let info = RunInfo { version: "0".into(), input_name: "links.xlsx".into(), input_sha256: String::new(), time: "2026-01-01 00:00:00".into(), sheets: None };
     let laid = plumb::layout::lay_out(&book, &reports, &info);
     let d = scratch("link-calculator");
     let out = d.join("out.xlsx");

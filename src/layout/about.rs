@@ -11,13 +11,16 @@ pub(super) fn sheet(about_n: &str, reports: &[Report], info: &RunInfo) -> Sheet 
     about.widths.insert(1, 70.0);
     about.widths.insert(2, 10.0);
     about.put(0, 0, OutCell::text("About this workbook", Style::Title));
-    let facts = [
+    let mut facts = vec![
         ("Made by", format!("plumb {}", info.version)),
         ("Input file", info.input_name.clone()),
         ("Input SHA-256", info.input_sha256.clone()),
         ("Time of the run (UTC)", info.time.clone()),
         ("Regenerate with", format!("plumb run \"{}\"", info.input_name)),
     ];
+    if let Some(how) = &info.sheets {
+        facts.push(("Your sheets", how.clone()));
+    }
     for (i, (k, v)) in facts.iter().enumerate() {
         about.put(i as u32 + 1, 0, OutCell::text(*k, Style::Header));
         about.put(i as u32 + 1, 1, OutCell::text(v, Style::Plain));

@@ -27,6 +27,7 @@ pub fn fixed_run_info(input_name: &str) -> RunInfo {
         input_name: input_name.into(),
         input_sha256: "0000000000000000000000000000000000000000000000000000000000000000".into(),
         time: "2000-01-01 00:00:00".into(),
+        sheets: None,
     }
 }
 
