@@ -525,7 +525,7 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         summary.problems.push(Problem::note(format!("{}; the results are complete", sheets_carried(format, keep_own))).in_file(file_label(&config.input)));
     }
     let lay_out = |reports: &[Report]| layout::Book { keep_formulas, ..layout::lay_out(&book, reports, &info) };
-    let mut laid = lay_out(&summary.reports);
+    let mut laid = lay_out_guarded(&mut summary, &file_label(&config.input), &lay_out);
     // A part the output cannot hold (a chart, a calculator, a list) costs
     // that part alone: its request gets a warning, shown at its cell, and
     // the book is laid out again with the part left out.
@@ -534,7 +534,7 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
         for r in &refused {
             note_refused(&mut summary, &book, &laid, r, &file_label(&config.input), true);
         }
-        laid = lay_out(&summary.reports);
+        laid = lay_out_guarded(&mut summary, &file_label(&config.input), &lay_out);
         let again = write::check_parts(&laid);
         laid.leave_out(&again);
     }
@@ -573,6 +573,46 @@ pub fn run(config: &RunConfig, registry: &Registry) -> Result<Summary, RunError>
     }
     summary.output = Some(out);
     Ok(summary)
+}
+
+/// Lays out the book. A panic while laying out one request's results (a
+/// bug in plumb) costs that request alone: each request whose results
+/// cannot be laid out by themselves becomes an error at its cell, and the
+/// book is laid out without them. (The panic hook still prints the panic,
+/// for the bug report.)
+fn lay_out_guarded(summary: &mut Summary, file: &str, lay_out: &dyn Fn(&[Report]) -> layout::Book) -> layout::Book {
+    let attempt = |rs: &[Report]| std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| lay_out(rs)));
+    if let Ok(book) = attempt(&summary.reports) {
+        return book;
+    }
+    for i in 0..summary.reports.len() {
+        if attempt(std::slice::from_ref(&summary.reports[i])).is_ok() {
+            continue;
+        }
+        let r = &mut summary.reports[i];
+        let p = Problem::error("laying out the results of this request stopped with an internal error; this is a bug in plumb, not in your data")
+            .at(r.cell.clone())
+            .help("please report it with the workbook; the other requests' results are written")
+            .in_file(file);
+        r.status = Status::Error;
+        r.outcome = None;
+        r.host = None;
+        r.messages.insert(0, p.one_line());
+        summary.problems.push(p);
+    }
+    match attempt(&summary.reports) {
+        Ok(book) => book,
+        // Only the requests together fail: the results are left out, each request shown as failed.
+        Err(_) => {
+            for r in &mut summary.reports {
+                r.status = Status::Error;
+                r.outcome = None;
+                r.host = None;
+                r.messages.insert(0, "laying out the results stopped with an internal error; this is a bug in plumb, not in your data".into());
+            }
+            lay_out(&summary.reports)
+        }
+    }
 }
 
 /// How the input's own sheets reach the output, in plain words (About
@@ -642,6 +682,30 @@ mod tests {
         assert_eq!(s.reports[0].status, Status::Error);
         assert!(s.reports[0].messages[0].contains("internal error (index out of bounds in a test fit)"), "{:?}", s.reports[0].messages);
         assert_ne!(s.reports[1].status, Status::Error);
+    }
+
+    #[test]
+    fn a_panic_while_laying_out_costs_only_its_request() {
+        let book = small_book(&["#linear(y, x, name=first)", "#linear(y, x2, name=second)"]);
+        let mut s = evaluate_book(&book, "t.xlsx", &Registry::builtin());
+        let info = RunInfo { version: "0".into(), input_name: "t.xlsx".into(), input_sha256: String::new(), time: String::new(), sheets: None };
+        // A layout with a bug in the results of one fit: it panics whenever
+        // that fit's outcome is to be laid out.
+        let lay_out = |rs: &[Report]| {
+            if rs.iter().any(|r| r.name == "second" && r.outcome.is_some()) {
+                panic!("a layout bug in a test");
+            }
+            layout::lay_out(&book, rs, &info)
+        };
+        let laid = lay_out_guarded(&mut s, "t.xlsx", &lay_out);
+        assert_ne!(s.reports[0].status, Status::Error, "{:?}", s.reports[0].messages);
+        assert!(s.reports[0].outcome.is_some());
+        assert_eq!(s.reports[1].status, Status::Error);
+        assert!(s.reports[1].messages[0].contains("laying out the results of this request stopped with an internal error"), "{:?}", s.reports[1].messages);
+        assert!(s.problems.iter().any(|p| p.severity == Severity::Error && p.message.contains("laying out")));
+        // The first fit's results are in the book.
+        let coefs = laid.sheets.iter().find(|sh| sh.name == "Coefficients").expect("a Coefficients sheet");
+        assert!(coefs.cells.values().any(|c| matches!(&c.content, layout::Content::Text(t) if t == "first")), "the first fit is laid out");
     }
 
     /// A sheet `Data` with x, y, twice x and a three-level text column, and
