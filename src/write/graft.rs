@@ -27,6 +27,7 @@
 //! Anything unexpected in the package is a [`GraftError`]; the writer then
 //! falls back to writing the source sheets from their values and says so.
 
+use crate::cells::{column_index, column_letters, CellRange};
 use quick_xml::events::attributes::Attribute;
 use quick_xml::events::{BytesEnd, BytesStart, BytesText, Event};
 use quick_xml::name::QName;
@@ -417,34 +418,17 @@ fn xml_err(e: std::io::Error) -> GraftError {
     GraftError(format!("writing a part failed ({e})"))
 }
 
-/// An A1 reference's zero-based (row, column).
+/// An A1 reference's zero-based (row, column); `$` marks allowed.
 fn parse_ref(r: &str) -> Option<(u32, u32)> {
-    let letters: String = r.chars().take_while(|c| c.is_ascii_alphabetic()).collect();
-    let digits = &r[letters.len()..];
-    if letters.is_empty() || digits.is_empty() {
-        return None;
-    }
-    let mut col = 0u32;
-    for c in letters.chars() {
-        col = col * 26 + (c.to_ascii_uppercase() as u32 - 'A' as u32 + 1);
-    }
-    let row: u32 = digits.trim_start_matches('$').parse().ok()?;
-    Some((row.checked_sub(1)?, col - 1))
-}
-
-fn col_letters(mut c: u32) -> String {
-    let mut s = Vec::new();
-    c += 1;
-    while c > 0 {
-        let m = (c - 1) % 26;
-        s.push((b'A' + m as u8) as char);
-        c = (c - 1) / 26;
-    }
-    s.iter().rev().collect()
+    let r = r.trim_start_matches('$');
+    let split = r.find(|c: char| !c.is_ascii_alphabetic())?;
+    let col = column_index(&r[..split])?;
+    let row: u32 = r[split..].trim_start_matches('$').parse().ok()?;
+    Some((row.checked_sub(1)?, col))
 }
 
 fn a1(row: u32, col: u32) -> String {
-    format!("{}{}", col_letters(col), row + 1)
+    format!("{}{}", column_letters(col), row + 1)
 }
 
 // ---------------------------------------------------------------- styles
@@ -1003,8 +987,8 @@ struct SheetAdds {
     /// The relationship id of plumb's notes drawing in the input sheet's
     /// relationships, when the notes are added.
     legacy_rid: Option<String>,
-    /// The cells plumb writes: (first row, first col, last row, last col), zero-based.
-    extent: Option<(u32, u32, u32, u32)>,
+    /// The cells plumb writes.
+    extent: Option<CellRange>,
 }
 
 /// How a relationship id is written on an element under this root: with
@@ -1045,8 +1029,9 @@ const AFTER_LEGACY: [&str; 6] = ["legacyDrawingHF", "picture", "oleObjects", "co
 /// Elements that follow `cols` (the sheet data always does).
 const AFTER_COLS: [&str; 1] = ["sheetData"];
 
-/// Streams one source sheet with plumb's cells merged into it.
-fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, plumb: &mut PlumbRows<B2>, out: W, adds: &SheetAdds) -> R<(bool, bool)> {
+/// Streams one source sheet with plumb's cells merged into it; says
+/// whether plumb's notes drawing was referenced from it.
+fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, plumb: &mut PlumbRows<B2>, out: W, adds: &SheetAdds) -> R<bool> {
     let mut rd = Reader::from_reader(input);
     let mut w = Writer::new(out);
     let mut buf = Vec::new();
@@ -1059,7 +1044,6 @@ fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, 
     let mut legacy_done = adds.legacy_rid.is_none();
     let mut own_links: HashSet<String> = HashSet::new();
     let mut notes_added = false;
-    let mut links_added = false;
     let mut rel_attr = String::new();
     loop {
         buf.clear();
@@ -1131,15 +1115,11 @@ fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, 
                         for x in own {
                             w.write_event(x).map_err(xml_err)?;
                         }
-                        links_added |= write_links(&mut w, &plumb.hyperlinks, &own_links)?;
+                        write_links(&mut w, &plumb.hyperlinks, &own_links)?;
                         w.write_event(end).map_err(xml_err)?;
                         continue;
                     }
-                    if !plumb.hyperlinks.is_empty() {
-                        w.get_mut().write_all(format!("<{prefix}hyperlinks>").as_bytes()).map_err(xml_err)?;
-                        links_added |= write_links(&mut w, &plumb.hyperlinks, &own_links)?;
-                        w.get_mut().write_all(format!("</{prefix}hyperlinks>").as_bytes()).map_err(xml_err)?;
-                    }
+                    write_links_element(&mut w, &prefix, &plumb.hyperlinks)?;
                 }
                 if l == "legacyDrawing" {
                     // The sheet has notes or controls of its own: plumb's notes are not added.
@@ -1187,10 +1167,8 @@ fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, 
                 }
                 if depth == 1 {
                     // The end of the worksheet: what is still due goes here.
-                    if !links_done && !plumb.hyperlinks.is_empty() {
-                        w.get_mut().write_all(format!("<{prefix}hyperlinks>").as_bytes()).map_err(xml_err)?;
-                        links_added |= write_links(&mut w, &plumb.hyperlinks, &own_links)?;
-                        w.get_mut().write_all(format!("</{prefix}hyperlinks>").as_bytes()).map_err(xml_err)?;
+                    if !links_done {
+                        write_links_element(&mut w, &prefix, &plumb.hyperlinks)?;
                     }
                     if !legacy_done {
                         notes_added |= write_legacy(&mut w, &prefix, &rel_attr, adds)?;
@@ -1206,7 +1184,7 @@ fn merge_sheet<B1: std::io::BufRead, B2: std::io::BufRead, W: Write>(input: B1, 
             other => w.write_event(other).map_err(xml_err)?,
         }
     }
-    Ok((notes_added, links_added))
+    Ok(notes_added)
 }
 
 fn write_legacy<W: Write>(w: &mut XmlOut<W>, prefix: &str, rel_attr: &str, adds: &SheetAdds) -> R<bool> {
@@ -1216,15 +1194,24 @@ fn write_legacy<W: Write>(w: &mut XmlOut<W>, prefix: &str, rel_attr: &str, adds:
     Ok(true)
 }
 
-fn write_links<W: Write>(w: &mut XmlOut<W>, links: &[(String, String)], own: &HashSet<String>) -> R<bool> {
-    let mut any = false;
+/// Plumb's links, except on cells that have a link of their own.
+fn write_links<W: Write>(w: &mut XmlOut<W>, links: &[(String, String)], own: &HashSet<String>) -> R<()> {
     for (r, x) in links {
         if !own.contains(r) {
             w.get_mut().write_all(x.as_bytes()).map_err(xml_err)?;
-            any = true;
         }
     }
-    Ok(any)
+    Ok(())
+}
+
+/// Plumb's links in a `hyperlinks` element of their own, for a sheet that has none.
+fn write_links_element<W: Write>(w: &mut XmlOut<W>, prefix: &str, links: &[(String, String)]) -> R<()> {
+    if links.is_empty() {
+        return Ok(());
+    }
+    write_raw(w, &format!("<{prefix}hyperlinks>"))?;
+    write_links(w, links, &HashSet::new())?;
+    write_raw(w, &format!("</{prefix}hyperlinks>"))
 }
 
 /// The input's column elements (min, max, XML), read up to `</cols>`.
@@ -1352,27 +1339,35 @@ fn write_merged_cells<W: Write>(w: &mut XmlOut<W>, own: &Cells, plumb: &Cells) -
 }
 
 /// The input's used range widened to hold plumb's cells.
-fn union_ref(own: Option<&str>, extent: Option<(u32, u32, u32, u32)>) -> String {
-    let parse = |s: &str| -> Option<(u32, u32, u32, u32)> {
+fn union_ref(own: Option<&str>, extent: Option<CellRange>) -> String {
+    let parse = |s: &str| -> Option<CellRange> {
         let mut it = s.split(':');
         let a = parse_ref(it.next()?.trim())?;
         let b = it.next().and_then(|x| parse_ref(x.trim())).unwrap_or(a);
-        Some((a.0.min(b.0), a.1.min(b.1), a.0.max(b.0), a.1.max(b.1)))
+        Some(CellRange::enclosing(Some(CellRange::enclosing(None, a.0, a.1)), b.0, b.1))
     };
-    let o = own.and_then(parse);
-    let u = match (o, extent) {
-        (Some(a), Some(b)) => (a.0.min(b.0), a.1.min(b.1), a.2.max(b.2), a.3.max(b.3)),
+    let u = match (own.and_then(parse), extent) {
+        (Some(a), Some(b)) => CellRange::enclosing(Some(CellRange::enclosing(Some(a), b.first_row, b.first_col)), b.last_row, b.last_col),
         (Some(a), None) | (None, Some(a)) => a,
         (None, None) => return own.unwrap_or("A1").to_string(),
     };
-    if (u.0, u.1) == (u.2, u.3) {
-        a1(u.0, u.1)
+    if u.rows() == 1 && u.cols() == 1 {
+        a1(u.first_row, u.first_col)
     } else {
-        format!("{}:{}", a1(u.0, u.1), a1(u.2, u.3))
+        u.to_string()
     }
 }
 
 // ---------------------------------------------------------------- the graft
+
+/// A source sheet that receives plumb's cells: its part in the input and in
+/// plumb's package, and, when plumb's notes are added to it, their
+/// relationships in plumb's package and the sheet's own.
+struct Touched {
+    apart: String,
+    ppart: String,
+    notes: Option<(Vec<Rel>, Vec<Rel>)>,
+}
 
 /// What the writer knows of one source sheet's additions.
 pub struct SourceAdds {
@@ -1380,8 +1375,8 @@ pub struct SourceAdds {
     pub name: String,
     /// Whether plumb adds anything to it.
     pub touched: bool,
-    /// The cells plumb writes there: (first row, first col, last row, last col).
-    pub extent: Option<(u32, u32, u32, u32)>,
+    /// The cells plumb writes there.
+    pub extent: Option<CellRange>,
 }
 
 /// Builds the output at `out` from the input's package and plumb's
@@ -1459,33 +1454,34 @@ pub fn graft(input: &Path, plumb: &Path, out: &Path, zip_level: u8, sources: &[S
         result_parts.push((name.clone(), new));
         queue.push(part);
     }
-    // Source sheets' notes (comments and their drawing).
-    let mut source_notes: HashMap<usize, Vec<Rel>> = HashMap::new();
+    // The source sheets that receive plumb's cells, and their notes
+    // (comments and their drawing) where the sheet has none of its own.
+    let mut touched: HashMap<usize, Touched> = HashMap::new();
     for (i, s) in sources.iter().enumerate() {
         if !s.touched {
             continue;
         }
         let ppart = pb.sheets[i].2.clone().ok_or_else(|| GraftError("plumb's source sheet has no part".into()))?;
-        let rels = p.rels(&ppart)?;
-        let notes: Vec<Rel> = rels.into_iter().filter(|r| r.kind == T_COMMENTS || r.kind == T_VML).collect();
-        if notes.is_empty() {
-            continue;
-        }
         let apart = ab.sheets.iter().find(|(n, _, _)| *n == s.name).and_then(|x| x.2.clone()).ok_or_else(|| GraftError(format!("the sheet {} has no part", s.name)))?;
-        let own = a.rels(&apart)?;
-        if own.iter().any(|r| r.kind == T_VML || r.kind == T_COMMENTS) {
-            grafted.left_out.push(format!("the notes holding the request texts on the sheet {} (it has notes or controls of its own; the About sheet lists the texts)", s.name));
-            continue;
-        }
-        for r in &notes {
-            let t = resolve(&ppart, &r.target);
-            if !renamed.contains_key(&t) {
-                let new = fresh(&t, &mut taken);
-                renamed.insert(t.clone(), new);
-                queue.push(t);
+        let notes: Vec<Rel> = p.rels(&ppart)?.into_iter().filter(|r| r.kind == T_COMMENTS || r.kind == T_VML).collect();
+        let mut t = Touched { apart, ppart, notes: None };
+        if !notes.is_empty() {
+            let own = a.rels(&t.apart)?;
+            if own.iter().any(|r| r.kind == T_VML || r.kind == T_COMMENTS) {
+                grafted.left_out.push(format!("the notes holding the request texts on the sheet {} (it has notes or controls of its own; the About sheet lists the texts)", s.name));
+            } else {
+                for r in &notes {
+                    let target = resolve(&t.ppart, &r.target);
+                    if !renamed.contains_key(&target) {
+                        let new = fresh(&target, &mut taken);
+                        renamed.insert(target.clone(), new);
+                        queue.push(target);
+                    }
+                }
+                t.notes = Some((notes, own));
             }
         }
-        source_notes.insert(i, notes);
+        touched.insert(i, t);
     }
     // Everything the renamed parts reach.
     let mut seen: HashSet<String> = HashSet::new();
@@ -1541,15 +1537,9 @@ pub fn graft(input: &Path, plumb: &Path, out: &Path, zip_level: u8, sources: &[S
             }
         }
     }
-    let mut touched_parts: HashMap<String, usize> = HashMap::new();
-    for (i, s) in sources.iter().enumerate() {
-        if s.touched {
-            let apart = ab.sheets.iter().find(|(n, _, _)| *n == s.name).and_then(|x| x.2.clone()).ok_or_else(|| GraftError(format!("the sheet {} has no part", s.name)))?;
-            touched_parts.insert(apart.to_ascii_lowercase(), i);
-            if source_notes.contains_key(&i) {
-                replaced.insert(rels_name(&apart).to_ascii_lowercase());
-            }
-        }
+    let touched_parts: HashMap<String, usize> = touched.iter().map(|(i, t)| (t.apart.to_ascii_lowercase(), *i)).collect();
+    for t in touched.values().filter(|t| t.notes.is_some()) {
+        replaced.insert(rels_name(&t.apart).to_ascii_lowercase());
     }
 
     // 1. The input's parts, in their order.
@@ -1560,25 +1550,25 @@ pub fn graft(input: &Path, plumb: &Path, out: &Path, zip_level: u8, sources: &[S
             continue;
         }
         if let Some(&i) = touched_parts.get(&lower) {
-            let ppart = pb.sheets[i].2.clone().unwrap_or_default();
-            let legacy_rid = source_notes.get(&i).map(|_| "rIdPlumbNotes".to_string());
+            let t = &touched[&i];
+            let legacy_rid = t.notes.as_ref().map(|_| "rIdPlumbNotes".to_string());
             let adds = SheetAdds { legacy_rid, extent: sources[i].extent };
             z.start_file(name.as_str(), big)?;
             let prefix = root_prefix(BufReader::new(a.zip.by_name(name)?))?;
-            let pname = p.find(&ppart).ok_or_else(|| GraftError("plumb's sheet is missing".into()))?.to_string();
-            let (notes_added, _) = {
+            let pname = p.find(&t.ppart).ok_or_else(|| GraftError("plumb's sheet is missing".into()))?.to_string();
+            let notes_added = {
                 let pf = p.zip.by_name(&pname)?;
                 let mut prow = PlumbRows::new(BufReader::with_capacity(1 << 16, pf), shift, &prefix)?;
                 let af = a.zip.by_name(name)?;
                 merge_sheet(BufReader::with_capacity(1 << 16, af), &mut prow, &mut z, &adds)?
             };
-            if let Some(notes) = source_notes.get(&i) {
-                let mut rels = a.rels(name)?;
+            if let Some((notes, own)) = &t.notes {
+                let mut rels = own.clone();
                 if notes_added {
                     for r in notes {
-                        let t = resolve(&ppart, &r.target);
+                        let target = resolve(&t.ppart, &r.target);
                         let id = if r.kind == T_VML { "rIdPlumbNotes".to_string() } else { "rIdPlumbComments".to_string() };
-                        rels.push(Rel { id, kind: r.kind.clone(), target: format!("/{}", renamed[&t]), external: false });
+                        rels.push(Rel { id, kind: r.kind.clone(), target: format!("/{}", renamed[&target]), external: false });
                     }
                 }
                 z.start_file(rels_name(name), opts)?;
@@ -1851,9 +1841,9 @@ mod tests {
         assert_eq!(parse_ref("B3"), Some((2, 1)));
         assert_eq!(parse_ref("AA10"), Some((9, 26)));
         assert_eq!(a1(9, 26), "AA10");
-        assert_eq!(union_ref(Some("A1:C5"), Some((0, 4, 9, 5))), "A1:F10");
+        assert_eq!(union_ref(Some("A1:C5"), Some(CellRange { first_row: 0, first_col: 4, last_row: 9, last_col: 5 })), "A1:F10");
         assert_eq!(union_ref(Some("A1"), None), "A1");
-        assert_eq!(union_ref(None, Some((1, 1, 1, 1))), "B2");
+        assert_eq!(union_ref(None, Some(CellRange { first_row: 1, first_col: 1, last_row: 1, last_col: 1 })), "B2");
     }
 
     #[test]
@@ -1879,7 +1869,7 @@ mod tests {
         let shift = Shift { xf: 10, dxf: 0, sst: 0 };
         let mut rows = PlumbRows::new(plumb.as_bytes(), shift, "").expect("plumb rows");
         let mut out = Vec::new();
-        let adds = SheetAdds { legacy_rid: None, extent: Some((0, 1, 2, 2)) };
+        let adds = SheetAdds { legacy_rid: None, extent: Some(CellRange { first_row: 0, first_col: 1, last_row: 2, last_col: 2 }) };
         merge_sheet(input.as_bytes(), &mut rows, &mut out, &adds).expect("merged");
         let s = String::from_utf8(out).expect("utf8");
         assert_eq!(

@@ -17,7 +17,7 @@ mod graft;
 
 pub use graft::{can_keep, GraftError};
 
-use crate::cells::{quote_sheet_name, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
+use crate::cells::{quote_sheet_name, CellRange, DateKind, ErrorValue, Grid, Value, Visibility, Workbook};
 use crate::layout::{format_code, output_sheet_names, Book, Cached, ChartSpec, Choices, Content, OutCell, Overlay, Part, Refused, Sheet, SheetAt, Style};
 use rust_xlsxwriter::{Chart, ChartAxisCrossing, ChartFormat, ChartLine, ChartMarker, ChartMarkerType, DataValidation, DocProperties, ExcelDateTime, Format, FormatBorder, Formula, Note, Url, Workbook as XlsxBook, Worksheet, XlsxError};
 use std::collections::{HashMap, HashSet};
@@ -275,21 +275,8 @@ fn write_source(ws: &mut Worksheet, fm: &mut Formats, parts: &mut Parts, at: She
     }
     // Rows that hold anything, ascending: constant-memory mode writes rows in order.
     let ext = grid.extent();
-    let mut lo = ext.map(|x| x.first_row).unwrap_or(u32::MAX);
-    let mut hi = ext.map(|x| x.last_row).unwrap_or(0);
-    for (r, _) in ov.cells.keys() {
-        lo = lo.min(*r);
-        hi = hi.max(*r);
-    }
-    for b in &ov.blocks {
-        for r in b.header.iter().map(|h| h.0).chain(b.rows.first().copied()).chain(b.rows.last().copied()) {
-            lo = lo.min(r);
-            hi = hi.max(r);
-        }
-    }
-    if lo > hi {
-        return Ok(());
-    }
+    let rows = [ext, overlay_extent(ov)].into_iter().flatten().map(|x| (x.first_row, x.last_row)).reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)));
+    let Some((lo, hi)) = rows else { return Ok(()) };
     let mut next: Vec<usize> = vec![0; ov.blocks.len()];
     for r in lo..=hi {
         if let Some(x) = ext {
@@ -606,17 +593,25 @@ fn excel_time(unix: i64) -> Result<ExcelDateTime, XlsxError> {
     ExcelDateTime::from_ymd(year, m as u8, d as u8)?.and_hms(hh as u16, mm as u8, ss as f64)
 }
 
-/// Writes the output atomically: a temporary file beside `out`, renamed onto
-/// it when complete. On any error the temporary file is removed and `out` is
-/// left as it was. A part the format cannot hold (see [`check_parts`]) is
-/// left out and returned; the rest is written.
-pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOptions) -> Result<Vec<Refused>, WriteError> {
+/// The output's folder, and a temporary file in it named after the output
+/// (`tag` tells two temporary files of one run apart); hidden by its dot,
+/// removed or renamed onto the output when done.
+fn beside(out: &Path, tag: &str) -> (PathBuf, PathBuf) {
     let dir = match out.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
         _ => PathBuf::from("."),
     };
     let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
-    let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
+    let tmp = dir.join(format!(".{file}.plumb-{}{tag}.tmp", std::process::id()));
+    (dir, tmp)
+}
+
+/// Writes the output atomically: a temporary file beside `out`, renamed onto
+/// it when complete. On any error the temporary file is removed and `out` is
+/// left as it was. A part the format cannot hold (see [`check_parts`]) is
+/// left out and returned; the rest is written.
+pub fn write_book(source: &Workbook, book: &Book, out: &Path, opts: &WriteOptions) -> Result<Vec<Refused>, WriteError> {
+    let (dir, tmp) = beside(out, "");
     // Errors name the output, not the temporary file the user never sees;
     // a folder the writer cannot use is said plainly.
     let result = build(source, book, &tmp, &dir, opts).map_err(|e| match e {
@@ -646,21 +641,16 @@ pub struct Written {
     pub fallback: Option<String>,
 }
 
-/// The cells an overlay writes: (first row, first column, last row, last column).
-fn overlay_extent(ov: &Overlay) -> Option<(u32, u32, u32, u32)> {
-    let mut ext: Option<(u32, u32, u32, u32)> = None;
-    let mut add = |r: u32, c: u32| {
-        ext = Some(match ext {
-            None => (r, c, r, c),
-            Some((a, b, x, y)) => (a.min(r), b.min(c), x.max(r), y.max(c)),
-        });
-    };
+/// The cells an overlay writes: its request cells, and its added columns
+/// from their headings to their last rows.
+fn overlay_extent(ov: &Overlay) -> Option<CellRange> {
+    let mut ext: Option<CellRange> = None;
     for &(r, c) in ov.cells.keys() {
-        add(r, c);
+        ext = Some(CellRange::enclosing(ext, r, c));
     }
     for b in &ov.blocks {
         for r in b.header.iter().map(|h| h.0).chain(b.rows.first().copied()).chain(b.rows.last().copied()) {
-            add(r, b.col);
+            ext = Some(CellRange::enclosing(ext, r, b.col));
         }
     }
     ext
@@ -673,12 +663,7 @@ fn overlay_extent(ov: &Overlay) -> Option<(u32, u32, u32, u32)> {
 /// not expect, the source sheets are written from their values as
 /// [`write_book`] does, and [`Written::fallback`] says why.
 pub fn write_book_keeping(source: &Workbook, book: &Book, input: &Path, out: &Path, opts: &WriteOptions) -> Result<Written, WriteError> {
-    let dir = match out.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    let file = out.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "output.xlsx".into());
-    let own = dir.join(format!(".{file}.plumb-{}-own.tmp", std::process::id()));
+    let (_, own) = beside(out, "-own");
     // Plumb's own part: the source sheets holding only the overlay.
     let bare = Workbook {
         sheets: source
@@ -692,7 +677,7 @@ pub fn write_book_keeping(source: &Workbook, book: &Book, input: &Path, out: &Pa
             .collect(),
     };
     let refused = write_book(&bare, book, &own, opts)?;
-    let tmp = dir.join(format!(".{file}.plumb-{}.tmp", std::process::id()));
+    let (_, tmp) = beside(out, "");
     let sources: Vec<graft::SourceAdds> = source
         .sheets
         .iter()
